@@ -1,0 +1,128 @@
+import { closeSync, openSync, writeSync, readFileSync, fsyncSync } from 'node:fs';
+import { RecordBatchFileWriter, tableFromArrays, tableFromIPC, Float32, Float64, Uint32 } from 'apache-arrow';
+import type { Table } from 'apache-arrow';
+import { KindredError } from '../errors.js';
+import type { RowBlock } from '../weight/types.js';
+import { wrapWriteError } from './atomic.js';
+
+export type ShardValueType = 'float32' | 'float64';
+
+/** Entries buffered before a record batch is written: bounds a writer's memory at about 16 MiB. */
+const BATCH_ENTRIES = 1 << 20;
+
+/**
+ * Streams (row, col, value) triplets, already sorted by (row, col), into one Arrow IPC file
+ * (`row: uint32, col: uint32, value: float32|float64`), one record batch per BATCH_ENTRIES.
+ */
+export class ShardWriter {
+  private readonly fd: number;
+  private readonly writer = new RecordBatchFileWriter();
+  private readonly pump: Promise<void>;
+  private rows = new Uint32Array(BATCH_ENTRIES);
+  private cols = new Uint32Array(BATCH_ENTRIES);
+  private values: Float64Array = new Float64Array(BATCH_ENTRIES);
+  private fill = 0;
+  private wroteAny = false;
+  private pumpError: unknown = null;
+  entries = 0;
+
+  constructor(readonly file: string, private readonly valueType: ShardValueType) {
+    let fd: number;
+    try {
+      fd = openSync(file, 'w');
+    } catch (e) {
+      throw wrapWriteError(e, file);
+    }
+    this.fd = fd;
+    // The writer queues bytes; drain them synchronously so memory stays at one batch.
+    this.pump = (async () => {
+      try {
+        for await (const chunk of this.writer) writeSync(fd, chunk);
+      } catch (e) {
+        this.pumpError = wrapWriteError(e, file);
+      }
+    })();
+  }
+
+  append(row: number, col: number, value: number): void {
+    this.rows[this.fill] = row;
+    this.cols[this.fill] = col;
+    this.values[this.fill] = value;
+    this.fill++;
+    this.entries++;
+    if (this.fill === BATCH_ENTRIES) this.flushBatch();
+  }
+
+  /** Appends every entry of a row block. */
+  appendBlock(block: RowBlock): void {
+    const nRows = block.indptr.length - 1;
+    for (let r = 0; r < nRows; r++) {
+      const row = block.firstRow + r;
+      for (let p = block.indptr[r]; p < block.indptr[r + 1]; p++) this.append(row, block.cols[p], block.values[p]);
+    }
+  }
+
+  private flushBatch(): void {
+    if (this.fill === 0 && this.wroteAny) return;
+    const n = this.fill;
+    const values = this.valueType === 'float32' ? Float32Array.from(this.values.subarray(0, n)) : this.values.slice(0, n);
+    const table = tableFromArrays({ row: this.rows.slice(0, n), col: this.cols.slice(0, n), value: values });
+    this.writer.write(table);
+    this.fill = 0;
+    this.wroteAny = true;
+  }
+
+  /** Writes the footer, waits for the bytes to reach the file, syncs and closes it. */
+  async close(): Promise<void> {
+    this.flushBatch();
+    this.writer.finish();
+    await this.pump;
+    try {
+      if (this.pumpError) throw this.pumpError;
+      fsyncSync(this.fd);
+    } finally {
+      closeSync(this.fd);
+    }
+    if (this.pumpError) throw this.pumpError;
+  }
+}
+
+/** Column types of a shard table, for checks by readers. */
+export const SHARD_TYPES = { row: new Uint32(), col: new Uint32(), float32: new Float32(), float64: new Float64() };
+
+/** Reads an Arrow IPC file whole. */
+export function readArrowTable(file: string): Table {
+  let bytes: Buffer;
+  try {
+    bytes = readFileSync(file);
+  } catch (e) {
+    throw new KindredError(`cannot read ${file}: ${(e as NodeJS.ErrnoException).code ?? String(e)}`);
+  }
+  try {
+    return tableFromIPC(bytes);
+  } catch (e) {
+    throw new KindredError(`${file}: not a readable Arrow IPC file (${(e as Error).message})`);
+  }
+}
+
+/** Reads a shard of rows [firstRow, endRow) into compressed sparse row form. */
+export function readShard(file: string, firstRow: number, endRow: number): RowBlock {
+  const table = readArrowTable(file);
+  const rowCol = table.getChild('row');
+  const colCol = table.getChild('col');
+  const valCol = table.getChild('value');
+  if (!rowCol || !colCol || !valCol) throw new KindredError(`${file}: missing one of the columns row, col, value`);
+  const rows = rowCol.toArray() as Uint32Array;
+  const cols = colCol.toArray() as Uint32Array;
+  const raw = valCol.toArray() as Float32Array | Float64Array;
+  const values = raw instanceof Float64Array ? raw : Float64Array.from(raw);
+  const nRows = endRow - firstRow;
+  const indptr = new Uint32Array(nRows + 1);
+  for (let i = 0; i < rows.length; i++) {
+    const r = rows[i] - firstRow;
+    if (r < 0 || r >= nRows) throw new KindredError(`${file}: row ${rows[i]} lies outside the shard's range [${firstRow}, ${endRow})`);
+    indptr[r + 1]++;
+  }
+  for (let r = 0; r < nRows; r++) indptr[r + 1] += indptr[r];
+  return { firstRow, indptr, cols: cols.slice(), values };
+}

@@ -1,0 +1,67 @@
+import type { Normalization, WeightingConfig, WeightingScheme } from '../config/types.js';
+import { KindredError } from '../errors.js';
+import { dropZeros } from './block.js';
+import { precomputeContextTerms, type ContextTerms } from './context-terms.js';
+import { weightLogCount } from './log-count.js';
+import { weightObservedExpected } from './observed-expected.js';
+import { weightPmi } from './pmi.js';
+import { weightPpmi } from './ppmi.js';
+import { weightTfidf } from './tfidf.js';
+import { weightTtest } from './ttest.js';
+import { normalizeRows } from './normalize.js';
+import type { Marginals, RowBlock, WeightingFn } from './types.js';
+
+export type { Marginals, RowBlock, WeightingFn } from './types.js';
+export { logFn } from './log.js';
+export { normalizeRows };
+export { computeMarginals } from './marginals.js';
+export { precomputeContextTerms, type ContextTerms } from './context-terms.js';
+export { dropZeros } from './block.js';
+
+/** A scheme's implementation; the optional precomputed context terms keep per-block cost at O(nnz + rows). */
+type WeightingKernel = (counts: RowBlock, m: Marginals, cfg: WeightingConfig, terms?: ContextTerms) => RowBlock;
+
+// One file per scheme, one line per scheme here.
+const registry: Record<WeightingScheme, WeightingKernel> = {
+  ppmi: weightPpmi,
+  pmi: weightPmi,
+  'observed-expected': weightObservedExpected,
+  ttest: weightTtest,
+  'log-count': weightLogCount,
+  tfidf: weightTfidf,
+};
+
+/** Names of every registered scheme. */
+export const weightingSchemes = Object.keys(registry) as WeightingScheme[];
+
+function kernelFor(scheme: WeightingScheme): WeightingKernel {
+  const fn = Object.prototype.hasOwnProperty.call(registry, scheme) ? registry[scheme] : undefined;
+  if (!fn) {
+    throw new KindredError(`weighting.scheme: unknown value ${JSON.stringify(scheme)}; use one of ${weightingSchemes.map((s) => `"${s}"`).join(', ')}`);
+  }
+  return fn;
+}
+
+/**
+ * The scheme's weighting function. Its output has exactly the input's entries (sharing indptr and cols),
+ * values replaced; entries whose weight is 0 are kept. Use weightBlock for sparse output.
+ */
+export function getWeighting(scheme: WeightingScheme): WeightingFn {
+  return kernelFor(scheme);
+}
+
+/**
+ * Weights a block of count rows with the configured scheme and drops entries whose weight is exactly 0
+ * (clipped PPMI, plain idf of a term in every document), so the output stays sparse.
+ * Pass `terms` from precomputeContextTerms to share column quantities explicitly; otherwise they are memoised per marginals.
+ */
+export function weightBlock(counts: RowBlock, m: Marginals, cfg: WeightingConfig, terms?: ContextTerms): RowBlock {
+  const kernel = kernelFor(cfg.scheme);
+  const needsTerms = cfg.scheme === 'ppmi' || cfg.scheme === 'pmi';
+  return dropZeros(kernel(counts, m, cfg, needsTerms ? (terms ?? precomputeContextTerms(m, cfg)) : undefined));
+}
+
+/** Weights then normalizes a block: weightBlock followed by normalizeRows. */
+export function weightAndNormalize(counts: RowBlock, m: Marginals, cfg: WeightingConfig, kind: Normalization, terms?: ContextTerms): RowBlock {
+  return normalizeRows(weightBlock(counts, m, cfg, terms), kind);
+}
