@@ -1,5 +1,5 @@
 import { closeSync, openSync, writeSync, readFileSync, fsyncSync } from 'node:fs';
-import { RecordBatchFileWriter, tableFromArrays, tableFromIPC, Float32, Float64, Uint32 } from 'apache-arrow';
+import { RecordBatchFileWriter, RecordBatch, Schema, Field, Struct, makeData, tableFromIPC, Float32, Float64, Uint32 } from 'apache-arrow';
 import type { Table } from 'apache-arrow';
 import { KindredError } from '../errors.js';
 import type { RowBlock } from '../weight/types.js';
@@ -24,6 +24,7 @@ export class ShardWriter {
   private fill = 0;
   private wroteAny = false;
   private pumpError: unknown = null;
+  private readonly schema: Schema;
   entries = 0;
 
   constructor(readonly file: string, private readonly valueType: ShardValueType) {
@@ -34,6 +35,11 @@ export class ShardWriter {
       throw wrapWriteError(e, file);
     }
     this.fd = fd;
+    this.schema = new Schema([
+      new Field('row', new Uint32(), false),
+      new Field('col', new Uint32(), false),
+      new Field('value', valueType === 'float32' ? new Float32() : new Float64(), false),
+    ]);
     // The writer queues bytes; drain them synchronously so memory stays at one batch.
     this.pump = (async () => {
       try {
@@ -66,8 +72,14 @@ export class ShardWriter {
     if (this.fill === 0 && this.wroteAny) return;
     const n = this.fill;
     const values = this.valueType === 'float32' ? Float32Array.from(this.values.subarray(0, n)) : this.values.slice(0, n);
-    const table = tableFromArrays({ row: this.rows.slice(0, n), col: this.cols.slice(0, n), value: values });
-    this.writer.write(table);
+    const children = [
+      makeData({ type: this.schema.fields[0].type, length: n, nullCount: 0, data: this.rows.slice(0, n) }),
+      makeData({ type: this.schema.fields[1].type, length: n, nullCount: 0, data: this.cols.slice(0, n) }),
+      makeData({ type: this.schema.fields[2].type, length: n, nullCount: 0, data: values }),
+    ];
+    const batch = new RecordBatch(this.schema, makeData({ type: new Struct(this.schema.fields), length: n, nullCount: 0, children }));
+    // one schema object for every batch: the writer starts a new stream when it sees a different one
+    this.writer.write(batch);
     this.fill = 0;
     this.wroteAny = true;
   }
@@ -86,9 +98,6 @@ export class ShardWriter {
     if (this.pumpError) throw this.pumpError;
   }
 }
-
-/** Column types of a shard table, for checks by readers. */
-export const SHARD_TYPES = { row: new Uint32(), col: new Uint32(), float32: new Float32(), float64: new Float64() };
 
 /** Reads an Arrow IPC file whole. */
 export function readArrowTable(file: string): Table {
