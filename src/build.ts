@@ -1,18 +1,16 @@
 import { promises as fsp, statSync } from 'node:fs';
 import path from 'node:path';
 import type { LoadedConfig } from './config/index.js';
-import type { KindredConfig } from './config/types.js';
 import { KindredError } from './errors.js';
-import { readDocuments, resolveInputs } from './ingest/index.js';
-import { emptyIngestStats, type IngestStats } from './ingest/types.js';
-import { createTokenizer, type Tokenizer } from './tokenize/index.js';
-import { TermCounter } from './count/term-counter.js';
-import { CooccurrenceCounter, pairTableCapacity } from './count/cooccur.js';
-import { partitionRows, type RowRange } from './count/partition.js';
-import { weightBlock, normalizeRows } from './weight/index.js';
-import type { Marginals } from './weight/types.js';
-import { ShardWriter, readShard } from './store/shards.js';
-import { writeVocabulary, type Vocabulary } from './store/vocab-file.js';
+import { resolveInputs } from './ingest/index.js';
+import { emptyIngestStats } from './ingest/types.js';
+import { createTokenizer } from './tokenize/index.js';
+import { pairTableCapacity } from './count/cooccur.js';
+import { countTerms, countPairs } from './count/passes.js';
+import { partitionRows } from './count/partition.js';
+import { weightShards } from './weight/stage.js';
+import { partFileName } from './store/shards.js';
+import { writeVocabulary } from './store/vocab-file.js';
 import { publishDirectory, temporarySibling, writeFileAtomic } from './store/atomic.js';
 import { sha256File, sha256Text } from './store/checksum.js';
 import { FORMAT_VERSION, MANIFEST_FILE, type FileRecord, type InputFingerprint, type Manifest, type PartRecord, type StageRecord } from './store/manifest.js';
@@ -28,13 +26,8 @@ export interface BuildOptions {
   pairTableCapacity?: number;
 }
 
-
 function stageKey(...parts: unknown[]): string {
   return sha256Text(canonicalJson(parts)).slice(0, 32);
-}
-
-export function partFileName(index: number): string {
-  return `part-${String(index).padStart(5, '0')}.arrow`;
 }
 
 async function fingerprintInputs(files: string[]): Promise<InputFingerprint[]> {
@@ -44,84 +37,6 @@ async function fingerprintInputs(files: string[]): Promise<InputFingerprint[]> {
     out.push({ path: file, bytes: st.size, modified: st.mtime.toISOString(), sha256: await sha256File(file) });
   }
   return out;
-}
-
-/** Pass 1: term counts and document frequencies over the whole corpus. */
-async function countTerms(
-  files: string[], cfg: KindredConfig, tokenizer: Tokenizer, stats: IngestStats, progress: Progress, totalBytes: number,
-): Promise<{ vocab: Vocabulary; counter: TermCounter }> {
-  const counter = new TermCounter();
-  progress.start('vocabulary', totalBytes, 'B');
-  let doc = 0;
-  for await (const d of readDocuments(files, cfg.input, stats, (b) => progress.update(b))) {
-    const docIndex = doc++;
-    tokenizer.tokenize(d.text, (t) => counter.add(t, docIndex));
-  }
-  const vocab = counter.finish(cfg.vocabulary);
-  progress.end(`${stats.documents} documents, ${counter.tokens} tokens, ${counter.size} distinct terms, ${vocab.terms.length} kept`);
-  return { vocab, counter };
-}
-
-/** Pass 2: co-occurrence counts into row-partitioned shards; returns the marginals. */
-async function countPairs(
-  files: string[], cfg: KindredConfig, tokenizer: Tokenizer, vocab: Vocabulary, nCols: number, ranges: RowRange[],
-  workDir: string, opts: BuildOptions, progress: Progress, totalBytes: number,
-): Promise<{ marginals: Marginals; entries: number[]; pairs: number; spilledRuns: number }> {
-  const ids = new Map<string, number>();
-  vocab.terms.forEach((t, i) => ids.set(t, i));
-  const spillDir = path.join(workDir, 'spill');
-  await fsp.mkdir(spillDir, { recursive: true });
-  const counter = new CooccurrenceCounter({
-    contexts: cfg.contexts,
-    nRows: vocab.terms.length,
-    nCols,
-    capacity: opts.pairTableCapacity ?? pairTableCapacity(cfg.memoryMiB),
-    spillDir,
-  });
-  progress.start('count', totalBytes, 'B');
-  let buf = new Int32Array(4096);
-  let len = 0;
-  const push = (t: string): void => {
-    if (len === buf.length) {
-      const bigger = new Int32Array(buf.length * 2);
-      bigger.set(buf);
-      buf = bigger;
-    }
-    buf[len++] = ids.get(t) ?? -1;
-  };
-  let doc = 0;
-  const passStats = emptyIngestStats();
-  for await (const d of readDocuments(files, cfg.input, passStats, (b) => progress.update(b))) {
-    len = 0;
-    tokenizer.tokenize(d.text, push);
-    counter.addDocument(buf, len, doc++);
-  }
-  const writers = ranges.map((_, i) => new ShardWriter(path.join(workDir, 'counts', partFileName(i)), 'float64'));
-  let part = 0;
-  const marginals = counter.finish((row, col, count) => {
-    while (row >= ranges[part].endRow) part++;
-    writers[part].append(row, col, count);
-  });
-  for (const w of writers) await w.close();
-  progress.end(`${counter.pairs} pair events, ${writers.reduce((s, w) => s + w.entries, 0)} nonzero counts, ${counter.spilledRuns} spilled runs`);
-  return { marginals, entries: writers.map((w) => w.entries), pairs: counter.pairs, spilledRuns: counter.spilledRuns };
-}
-
-/** Reweights and normalizes each count shard into the matching weighted shard. */
-async function weightShards(cfg: KindredConfig, ranges: RowRange[], marginals: Marginals, workDir: string, progress: Progress): Promise<number[]> {
-  progress.start('weight', ranges.length, 'parts');
-  const entries: number[] = [];
-  for (let i = 0; i < ranges.length; i++) {
-    const counts = readShard(path.join(workDir, 'counts', partFileName(i)), ranges[i].firstRow, ranges[i].endRow);
-    const weighted = normalizeRows(weightBlock(counts, marginals, cfg.weighting), cfg.normalize);
-    const writer = new ShardWriter(path.join(workDir, 'weighted', partFileName(i)), cfg.output.valueType);
-    writer.appendBlock(weighted);
-    await writer.close();
-    entries.push(writer.entries);
-    progress.update(i + 1);
-  }
-  progress.end(`${cfg.weighting.scheme}, ${cfg.normalize} rows, ${entries.reduce((a, b) => a + b, 0)} nonzero weights`);
-  return entries;
 }
 
 async function listFiles(root: string, dir = root): Promise<string[]> {
@@ -180,7 +95,7 @@ export async function runBuild(loaded: LoadedConfig, opts: BuildOptions): Promis
     const nCols = cfg.contexts.type === 'document' ? stats.documents : vocab.terms.length;
     const ranges = partitionRows(vocab, cfg.contexts, nCols, cfg.output.parts);
     const counted = await timed('count', countKey,
-      () => countPairs(files, cfg, tokenizer, vocab, nCols, ranges, workDir, opts, progress, totalBytes),
+      () => countPairs(files, cfg, tokenizer, vocab, nCols, ranges, workDir, opts.pairTableCapacity ?? pairTableCapacity(cfg.memoryMiB), progress, totalBytes),
       (r) => ({ pairEvents: r.pairs, entries: r.entries.reduce((a, b) => a + b, 0), spilledRuns: r.spilledRuns }));
     await fsp.rm(path.join(workDir, 'spill'), { recursive: true, force: true });
 

@@ -5,6 +5,11 @@ import { KindredError } from '../errors.js';
 import type { RowBlock } from '../weight/types.js';
 import { wrapWriteError } from './atomic.js';
 
+/** The file name of shard `index`: part-00000.arrow, part-00001.arrow … */
+export function partFileName(index: number): string {
+  return `part-${String(index).padStart(5, '0')}.arrow`;
+}
+
 export type ShardValueType = 'float32' | 'float64';
 
 /** Entries buffered before a record batch is written: bounds a writer's memory at about 16 MiB. */
