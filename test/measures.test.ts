@@ -20,20 +20,10 @@ import {
   type SparseVector,
 } from '../src/measures/index.js';
 import { pythonAvailable, runPythonJson } from './helpers/python.js';
+import { mulberry32 } from './helpers/random.js';
 
 // ---------------------------------------------------------------- seeded data
 
-/** mulberry32: a small seeded PRNG so every run sees the same vectors. */
-function mulberry32(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 interface Pair {
   label: string;

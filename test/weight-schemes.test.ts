@@ -16,19 +16,9 @@ import {
 } from '../src/weight/index.js';
 import type { RowBlock } from '../src/weight/types.js';
 import { pythonAvailable, runPythonJson } from './helpers/python.js';
+import { mulberry32 as prng } from './helpers/random.js';
 import { splitRowBlock } from './helpers/reference.js';
 
-/** Small deterministic PRNG (mulberry32) so the matrices are the same on every run. */
-function prng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 interface Coo {
   nRows: number;
