@@ -3,141 +3,331 @@ import path from 'node:path';
 import type { LoadedConfig } from './config/index.js';
 import { KindredError } from './errors.js';
 import { resolveInputs } from './ingest/index.js';
-import { emptyIngestStats } from './ingest/types.js';
+import { emptyIngestStats, type IngestStats } from './ingest/types.js';
 import { createTokenizer } from './tokenize/index.js';
 import { pairTableCapacity } from './count/cooccur.js';
-import { countTerms, countPairs } from './count/passes.js';
+import { countTerms, countPairs, type CountExec } from './count/passes.js';
+import { resolveWorkers } from './exec/pool.js';
 import { partitionRows } from './count/partition.js';
 import { weightShards } from './weight/stage.js';
 import { partFileName } from './store/shards.js';
-import { writeVocabulary } from './store/vocab-file.js';
-import { publishDirectory, temporarySibling, writeFileAtomic } from './store/atomic.js';
+import { readVocabulary, writeVocabulary } from './store/vocab-file.js';
+import { describeWriteFailure, wrapWriteError } from './store/atomic.js';
 import { sha256File, sha256Text } from './store/checksum.js';
-import { FORMAT_VERSION, MANIFEST_FILE, type FileRecord, type InputFingerprint, type Manifest, type PartRecord, type StageRecord } from './store/manifest.js';
+import { acquireBuildLock } from './store/lock.js';
+import { MARGINALS_FILE, readMarginals, writeMarginals } from './store/marginals-file.js';
+import { WorkArea, type StageOutput } from './store/work-area.js';
+import { FORMAT_VERSION, readManifest, type FileRecord, type InputFingerprint, type Manifest, type PartRecord, type StageRecord } from './store/manifest.js';
 import { silentProgress, type Progress } from './progress.js';
 import { canonicalJson } from './config/index.js';
 import { TOOL_VERSION } from './version.js';
+import { runVectorsStage, type VectorsRecord } from './reduce/stage.js';
+import { VECTORS_FILE } from './reduce/vectors-file.js';
+import { runNeighborsStage, type NeighborsRecord } from './query/table-stage.js';
+import { NEIGHBORS_FILE } from './query/neighbors-file.js';
 
 export interface BuildOptions {
-  /** Folder the build is published at; replaced only when the new build has fully succeeded. */
+  /** Path the build is published at (a symbolic link, switched only when the new build has fully succeeded). */
   outDir: string;
   progress?: Progress;
   /** Pair-table slots before spilling; derived from memoryMiB unless set (tests force spilling with it). */
   pairTableCapacity?: number;
+  /** Hears one-line notes (a stale lock taken over, a damaged stage output redone); default: stderr. */
+  notify?: (message: string) => void;
 }
 
 function stageKey(...parts: unknown[]): string {
   return sha256Text(canonicalJson(parts)).slice(0, 32);
 }
 
-async function fingerprintInputs(files: string[]): Promise<InputFingerprint[]> {
+async function fingerprintInputs(files: string[], progress: Progress): Promise<InputFingerprint[]> {
+  const sizes = files.map((f) => statSync(f).size);
+  progress.start('fingerprint', sizes.reduce((a, b) => a + b, 0), 'B');
   const out: InputFingerprint[] = [];
+  let done = 0;
   for (const file of files) {
     const st = statSync(file);
-    out.push({ path: file, bytes: st.size, modified: st.mtime.toISOString(), sha256: await sha256File(file) });
+    out.push({ path: file, bytes: st.size, modified: st.mtime.toISOString(), sha256: await sha256File(file, (n) => progress.update((done += n))) });
   }
+  progress.end(`${files.length} input file(s), ${done} bytes hashed`);
   return out;
 }
 
-async function listFiles(root: string, dir = root): Promise<string[]> {
-  const out: string[] = [];
-  for (const e of await fsp.readdir(dir, { withFileTypes: true })) {
-    const p = path.join(dir, e.name);
-    if (e.isDirectory()) out.push(...(await listFiles(root, p)));
-    else out.push(path.relative(root, p).split(path.sep).join('/'));
+/**
+ * One stage of the build: a pure function of its inputs and settings, which `key` hashes. Its output folder is
+ * written under the work area's tmp/ and kept (keyed) only when complete, so a rerun reuses it.
+ */
+interface StageSpec<S> {
+  name: string;
+  key: string;
+  /** Top-level files or folders of the output that go into the published build; the rest stay internal. */
+  publish: string[];
+  /** Writes the output into `dir` (fresh and empty) and returns a JSON summary, kept in stage.json. */
+  run(dir: string): Promise<S>;
+  /** The stage's counts for the manifest. */
+  counts(summary: S): Record<string, number>;
+}
+
+/** Runs stages, reusing finished ones, and records them for the manifest. */
+class StageRunner {
+  readonly records: StageRecord[] = [];
+  readonly outputs: StageOutput<unknown>[] = [];
+
+  constructor(
+    private readonly area: WorkArea,
+    private readonly progress: Progress,
+    private readonly notify: (message: string) => void,
+  ) {}
+
+  /** A step that is always run (nothing to reuse), timed into the manifest. */
+  async always<T>(name: string, key: string, run: () => Promise<T>, counts: (r: T) => Record<string, number>): Promise<T> {
+    const t0 = performance.now();
+    const r = await run();
+    this.records.push({ name, key, seconds: secondsSince(t0), reused: false, counts: counts(r) });
+    return r;
   }
-  return out.sort();
+
+  async run<S>(spec: StageSpec<S>): Promise<StageOutput<S>> {
+    const t0 = performance.now();
+    let found: StageOutput<S> | null | { damaged: string } = null;
+    if (await this.area.hasStage(spec.name, spec.key)) {
+      this.progress.start(spec.name, 0, 'B checked');
+      let checked = 0;
+      found = await this.area.findStage<S>(spec.name, spec.key, (n) => this.progress.update((checked += n)));
+    }
+    let out: StageOutput<S>;
+    if (found !== null && !('damaged' in found)) {
+      this.progress.end(`reused finished output ${spec.key.slice(0, 12)} (${found.published.length} file(s) checked)`);
+      out = found;
+    } else {
+      if (found !== null) {
+        this.notify(`the finished output of stage ${spec.name} (${this.area.stageDir(spec.name, spec.key)}) is damaged: ${found.damaged}; redoing the stage`);
+        await this.area.discardStage(spec.name, spec.key);
+      }
+      const tmp = await this.area.temporaryFolder(`${spec.name}-${spec.key}`);
+      const summary = await spec.run(tmp);
+      out = await this.area.commitStage(spec.name, spec.key, tmp, spec.publish, summary, secondsSince(t0));
+    }
+    this.records.push({ name: spec.name, key: spec.key, seconds: secondsSince(t0), reused: out.reused, counts: spec.counts(out.summary) });
+    this.outputs.push(out as StageOutput<unknown>);
+    return out;
+  }
+}
+
+function secondsSince(t0: number): number {
+  return Number(((performance.now() - t0) / 1000).toFixed(3));
+}
+
+const sum = (xs: number[]): number => xs.reduce((a, b) => a + b, 0);
+
+interface VocabularySummary {
+  documents: number;
+  tokens: number;
+  distinctTerms: number;
+  vocabulary: number;
+  ingest: IngestStats;
+}
+
+interface CountSummary {
+  pairEvents: number;
+  entries: number[];
+  spilledRuns: number;
+}
+
+interface WeightSummary {
+  entries: number[];
+}
+
+const WRITE_SYSCALLS = new Set(['open', 'write', 'writev', 'close', 'fsync', 'link', 'symlink', 'rename', 'mkdir', 'copyfile', 'unlink', 'rmdir']);
+
+/** A file-system error that escaped a stage becomes a one-line error naming the path. */
+function asUserError(e: unknown, fallbackPath: string): unknown {
+  if (e instanceof KindredError) return e;
+  const err = e as NodeJS.ErrnoException | null;
+  if (err && typeof err.code === 'string' && typeof err.syscall === 'string') {
+    if (WRITE_SYSCALLS.has(err.syscall)) return wrapWriteError(e, fallbackPath);
+    const where = typeof err.path === 'string' ? err.path : fallbackPath;
+    return new KindredError(`${where}: ${err.syscall} failed: ${describeWriteFailure(err.code)}`);
+  }
+  return e;
 }
 
 /**
- * Builds the whole matrix: vocabulary, co-occurrence counts, weighted rows, manifest. Everything is written
- * into a temporary sibling folder and published at opts.outDir only when complete.
+ * Builds the whole matrix: vocabulary, co-occurrence counts, weighted rows, manifest. Each stage's output is
+ * kept in `<outDir>.kindred/stages/` under a hash of its inputs and settings, so a rerun after a crash redoes
+ * only what is missing; the build is published at opts.outDir (a symbolic link switched atomically) only
+ * when complete. A second build into the same outDir is refused while one runs.
  */
 export async function runBuild(loaded: LoadedConfig, opts: BuildOptions): Promise<Manifest> {
-  const cfg = loaded.config;
   const progress = opts.progress ?? silentProgress;
+  const notify = opts.notify ?? ((m: string) => void process.stderr.write(`kindred: note: ${m}\n`));
   const outDir = path.resolve(opts.outDir);
+  const area = new WorkArea(outDir);
+  await area.outputState(); // refuse a bad --out before any work
   await fsp.mkdir(path.dirname(outDir), { recursive: true }).catch((e: NodeJS.ErrnoException) => {
     throw new KindredError(`cannot create the output folder ${path.dirname(outDir)}: ${e.code ?? e.message}`);
   });
-  const files = await resolveInputs(cfg.input.paths, loaded.baseDir);
-  const tokenizer = await createTokenizer(cfg.tokenize, loaded.baseDir);
-  const workDir = temporarySibling(outDir, 'build');
-  const stages: StageRecord[] = [];
-  const timed = async <T>(name: string, key: string, run: () => Promise<T>, counts: (r: T) => Record<string, number>): Promise<T> => {
-    const t0 = performance.now();
-    const r = await run();
-    stages.push({ name, key, seconds: Number(((performance.now() - t0) / 1000).toFixed(3)), counts: counts(r) });
-    return r;
-  };
+  const lock = await acquireBuildLock(area.lockFile, outDir, notify);
   try {
-    await fsp.mkdir(path.join(workDir, 'counts'), { recursive: true });
-    await fsp.mkdir(path.join(workDir, 'weighted'), { recursive: true });
-
-    const inputs = await timed('fingerprint', stageKey(files), () => fingerprintInputs(files), (r) => ({ files: r.length, bytes: r.reduce((s, f) => s + f.bytes, 0) }));
-    const totalBytes = inputs.reduce((s, f) => s + f.bytes, 0);
-    const inputKey = stageKey(inputs.map((f) => f.sha256));
-    const vocabKey = stageKey(inputKey, cfg.input, cfg.tokenize, cfg.vocabulary);
-    const countKey = stageKey(vocabKey, cfg.contexts, cfg.output.parts);
-    const weightKey = stageKey(countKey, cfg.weighting, cfg.normalize, cfg.output.valueType);
-
-    const stats = emptyIngestStats();
-    const { vocab, counter } = await timed('vocabulary', vocabKey, () => countTerms(files, cfg, tokenizer, stats, progress, totalBytes),
-      (r) => ({ documents: stats.documents, tokens: r.counter.tokens, distinctTerms: r.counter.size, vocabulary: r.vocab.terms.length }));
-    if (counter.tokens === 0) {
-      throw new KindredError(`the corpus is empty: ${files.length} input file(s) gave ${stats.documents} document(s) and no token (check input.format and input.textField)`);
-    }
-    if (vocab.terms.length === 0) {
-      throw new KindredError(`the vocabulary is empty: no term reaches vocabulary.minCount=${cfg.vocabulary.minCount} and vocabulary.minDocFreq=${cfg.vocabulary.minDocFreq}; lower them`);
-    }
-    await writeVocabulary(path.join(workDir, 'vocab.arrow'), vocab);
-
-    const nCols = cfg.contexts.type === 'document' ? stats.documents : vocab.terms.length;
-    const ranges = partitionRows(vocab, cfg.contexts, nCols, cfg.output.parts);
-    const counted = await timed('count', countKey,
-      () => countPairs(files, cfg, tokenizer, vocab, nCols, ranges, workDir, opts.pairTableCapacity ?? pairTableCapacity(cfg.memoryMiB), progress, totalBytes),
-      (r) => ({ pairEvents: r.pairs, entries: r.entries.reduce((a, b) => a + b, 0), spilledRuns: r.spilledRuns }));
-    await fsp.rm(path.join(workDir, 'spill'), { recursive: true, force: true });
-
-    const weightedEntries = await timed('weight', weightKey, () => weightShards(cfg, ranges, counted.marginals, workDir, progress),
-      (r) => ({ entries: r.reduce((a, b) => a + b, 0) }));
-
-    const parts: PartRecord[] = ranges.map((r, i) => ({
-      index: i, firstRow: r.firstRow, endRow: r.endRow,
-      countsFile: `counts/${partFileName(i)}`, countsEntries: counted.entries[i],
-      weightedFile: `weighted/${partFileName(i)}`, weightedEntries: weightedEntries[i],
-    }));
-    const fileRecords: FileRecord[] = [];
-    for (const rel of await listFiles(workDir)) {
-      const p = path.join(workDir, rel);
-      fileRecords.push({ path: rel, bytes: statSync(p).size, sha256: await sha256File(p) });
-    }
-    const manifest: Manifest = {
-      format: 'kindred-build',
-      formatVersion: FORMAT_VERSION,
-      toolVersion: TOOL_VERSION,
-      createdAt: new Date().toISOString(),
-      configFile: loaded.file,
-      configHash: loaded.hash,
-      config: cfg,
-      inputs,
-      ingest: stats,
-      matrix: {
-        rows: vocab.terms.length,
-        cols: nCols,
-        columns: cfg.contexts.type === 'document' ? 'documents' : 'terms',
-        countsEntries: counted.entries.reduce((a, b) => a + b, 0),
-        weightedEntries: weightedEntries.reduce((a, b) => a + b, 0),
-        total: counted.marginals.total,
-      },
-      stages,
-      parts,
-      files: fileRecords,
-    };
-    await writeFileAtomic(path.join(workDir, MANIFEST_FILE), JSON.stringify(manifest, null, 2) + '\n');
-    await publishDirectory(workDir, outDir);
-    return manifest;
+    await area.create();
+    await area.clearTemporary();
+    await area.create();
+    return await buildAndPublish(loaded, opts, area, progress, notify);
+  } catch (e) {
+    throw asUserError(e, area.tmpDir);
   } finally {
-    await fsp.rm(workDir, { recursive: true, force: true });
+    await area.clearTemporary().catch(() => undefined);
+    await lock.release().catch(() => undefined);
+    await area.removeIfEmpty();
   }
+}
+
+async function buildAndPublish(
+  loaded: LoadedConfig, opts: BuildOptions, area: WorkArea, progress: Progress, notify: (message: string) => void,
+): Promise<Manifest> {
+  const cfg = loaded.config;
+  const files = await resolveInputs(cfg.input.paths, loaded.baseDir);
+  await createTokenizer(cfg.tokenize, loaded.baseDir); // a bad stopword file fails here, before any work
+  const exec: CountExec = { baseDir: loaded.baseDir, workers: resolveWorkers(cfg.workers) };
+  const stopwordsHash = cfg.tokenize.stopwords === null ? null : await sha256File(path.resolve(loaded.baseDir, cfg.tokenize.stopwords));
+  const stages = new StageRunner(area, progress, notify);
+
+  const inputs = await stages.always('fingerprint', stageKey(files), () => fingerprintInputs(files, progress),
+    (r) => ({ files: r.length, bytes: sum(r.map((f) => f.bytes)) }));
+  const totalBytes = sum(inputs.map((f) => f.bytes));
+  // Keys chain: each covers the stage's settings and the key of what it reads; the tool version guards
+  // against reusing output written by a different kindred.
+  const inputKey = stageKey(inputs.map((f) => [f.path, f.sha256]));
+  const vocabKey = stageKey(TOOL_VERSION, inputKey, cfg.input, cfg.tokenize, stopwordsHash, cfg.vocabulary);
+  const countKey = stageKey(vocabKey, cfg.contexts, cfg.output.parts);
+  const weightKey = stageKey(countKey, cfg.weighting, cfg.normalize, cfg.output.valueType);
+
+  const vocabStage = await stages.run<VocabularySummary>({
+    name: 'vocabulary',
+    key: vocabKey,
+    publish: ['vocab.arrow'],
+    run: async (dir) => {
+      const stats = emptyIngestStats();
+      const { vocab, counter } = await countTerms(files, cfg, exec, stats, progress, totalBytes);
+      if (counter.tokens === 0) {
+        throw new KindredError(`the corpus is empty: ${files.length} input file(s) gave ${stats.documents} document(s) and no token (check input.format and input.textField)`);
+      }
+      if (vocab.terms.length === 0) {
+        throw new KindredError(`the vocabulary is empty: no term reaches vocabulary.minCount=${cfg.vocabulary.minCount} and vocabulary.minDocFreq=${cfg.vocabulary.minDocFreq}; lower them`);
+      }
+      await writeVocabulary(path.join(dir, 'vocab.arrow'), vocab);
+      return { documents: stats.documents, tokens: counter.tokens, distinctTerms: counter.size, vocabulary: vocab.terms.length, ingest: stats };
+    },
+    counts: (s) => ({ documents: s.documents, tokens: s.tokens, distinctTerms: s.distinctTerms, vocabulary: s.vocabulary }),
+  });
+  // Later stages read the vocabulary back from the stage's file, whether fresh or reused: one code path.
+  const vocab = readVocabulary(path.join(vocabStage.dir, 'vocab.arrow'));
+  const nCols = cfg.contexts.type === 'document' ? vocabStage.summary.documents : vocab.terms.length;
+  const ranges = partitionRows(vocab, cfg.contexts, nCols, cfg.output.parts);
+
+  const countStage = await stages.run<CountSummary>({
+    name: 'count',
+    key: countKey,
+    publish: ['counts'],
+    run: async (dir) => {
+      await fsp.mkdir(path.join(dir, 'counts'));
+      const capacity = opts.pairTableCapacity ?? pairTableCapacity(cfg.memoryMiB);
+      const r = await countPairs(files, cfg, exec, vocab, nCols, ranges, dir, capacity, progress, totalBytes);
+      await fsp.rm(path.join(dir, 'spill'), { recursive: true, force: true });
+      // the weight stage needs the marginals; keeping them here lets it run (or rerun) without recounting
+      await writeMarginals(path.join(dir, MARGINALS_FILE), r.marginals);
+      return { pairEvents: r.pairs, entries: r.entries, spilledRuns: r.spilledRuns };
+    },
+    counts: (s) => ({ pairEvents: s.pairEvents, entries: sum(s.entries), spilledRuns: s.spilledRuns }),
+  });
+  const marginals = readMarginals(path.join(countStage.dir, MARGINALS_FILE));
+
+  const weightStage = await stages.run<WeightSummary>({
+    name: 'weight',
+    key: weightKey,
+    publish: ['weighted'],
+    run: async (dir) => {
+      await fsp.mkdir(path.join(dir, 'weighted'));
+      // weightShards reads <dir>/counts: lend it the count stage's folder for the duration
+      const lent = path.join(dir, 'counts');
+      await fsp.symlink(path.join(countStage.dir, 'counts'), lent);
+      const entries = await weightShards(cfg, ranges, marginals, dir, progress);
+      await fsp.unlink(lent);
+      return { entries };
+    },
+    counts: (s) => ({ entries: sum(s.entries) }),
+  });
+
+  // Optional stages go here, after 'weight' (e.g. vectors, neighbour tables). Each is one stages.run({...}):
+  //   key:     stageKey(<key of every stage it reads>, <its own config section>),
+  //   publish: the top-level files or folders it adds to the build (e.g. ['vectors.arrow']),
+  //   run(dir): reads earlier outputs (weightStage.dir, countStage.dir ...) and writes only into dir.
+  // Its published files then appear in the build and in manifest.files with no further change here.
+
+  const weightedParts = ranges.map((r, i) => ({
+    file: path.join(weightStage.dir, 'weighted', partFileName(i)), firstRow: r.firstRow, endRow: r.endRow, entries: weightStage.summary.entries[i],
+  }));
+  const vectorsKey = stageKey(weightKey, cfg.vectors);
+  const vectorsStage = !cfg.vectors.enabled ? null : await stages.run<VectorsRecord>({
+    name: 'vectors',
+    key: vectorsKey,
+    publish: [VECTORS_FILE],
+    run: (dir) => runVectorsStage(cfg.vectors, { outDir: dir, parts: weightedParts, nRows: vocab.terms.length, nCols, terms: vocab.terms, memoryMiB: cfg.memoryMiB }, progress),
+    counts: (s) => ({ rows: s.rows, dimensions: s.dimensions, passes: s.passes }),
+  });
+  const neighborsStage = !cfg.neighbors.enabled ? null : await stages.run<NeighborsRecord>({
+    name: 'neighbors',
+    key: stageKey(cfg.neighbors.source === 'vectors' ? vectorsKey : weightKey, cfg.neighbors),
+    publish: [NEIGHBORS_FILE],
+    run: (dir) => runNeighborsStage(cfg.neighbors, {
+      outDir: dir, terms: vocab.terms, workers: exec.workers,
+      rows: { dir: weightStage.dir, parts: weightedParts, nRows: vocab.terms.length, nCols },
+      vectorsFile: vectorsStage ? path.join(vectorsStage.dir, VECTORS_FILE) : undefined,
+    }, progress),
+    counts: (s) => ({ terms: s.queried, rows: s.rows, emptyRows: s.emptyRows }),
+  });
+
+  const parts: PartRecord[] = ranges.map((r, i) => ({
+    index: i, firstRow: r.firstRow, endRow: r.endRow,
+    countsFile: `counts/${partFileName(i)}`, countsEntries: countStage.summary.entries[i],
+    weightedFile: `weighted/${partFileName(i)}`, weightedEntries: weightStage.summary.entries[i],
+  }));
+  const fileRecords: FileRecord[] = stages.outputs.flatMap((s) => s.published).sort((a, b) => (a.path < b.path ? -1 : a.path > b.path ? 1 : 0));
+  const manifest: Manifest = {
+    format: 'kindred-build',
+    formatVersion: FORMAT_VERSION,
+    toolVersion: TOOL_VERSION,
+    createdAt: new Date().toISOString(),
+    configFile: loaded.file,
+    configHash: loaded.hash,
+    config: cfg,
+    inputs,
+    ingest: vocabStage.summary.ingest,
+    matrix: {
+      rows: vocab.terms.length,
+      cols: nCols,
+      columns: cfg.contexts.type === 'document' ? 'documents' : 'terms',
+      countsEntries: sum(countStage.summary.entries),
+      weightedEntries: sum(weightStage.summary.entries),
+      total: marginals.total,
+    },
+    stages: stages.records,
+    parts,
+    files: fileRecords,
+    ...(vectorsStage ? { vectors: vectorsStage.summary } : {}),
+    ...(neighborsStage ? { neighbors: neighborsStage.summary } : {}),
+  };
+  const { buildId, previous } = await area.publish(stages.outputs, JSON.stringify(manifest, null, 2) + '\n');
+
+  // Keep the new build and the one it replaced (a reader may still have it open), and their stage outputs.
+  const keepStages = new Set(stages.records.map((s) => `${s.name}-${s.key}`));
+  if (previous !== null) {
+    try {
+      for (const s of readManifest(path.join(area.buildsDir, previous)).stages) keepStages.add(`${s.name}-${s.key}`);
+    } catch {
+      // an unreadable previous build keeps nothing else alive
+    }
+  }
+  await area.collectGarbage(previous === null ? [buildId] : [buildId, previous], keepStages);
+  return manifest;
 }

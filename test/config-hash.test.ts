@@ -59,10 +59,12 @@ describe('configHash', () => {
     expect(text).toBe(
       '{"contexts":{"direction":"symmetric","type":"window","weighting":"uniform","window":5},' +
         '"input":{"format":"auto","idField":null,"onBadRecord":"fail","paths":["a.txt"],"textField":"text"},' +
-        '"memoryMiB":1024,"normalize":"l2","output":{"parts":4,"valueType":"float32"},' +
+        '"memoryMiB":1024,"neighbors":{"enabled":false,"k":10,"measure":"cosine","source":"rows","terms":0},' +
+        '"normalize":"l2","output":{"parts":4,"valueType":"float32"},' +
         '"tokenize":{"lowercase":true,"minLength":1,"numberPlaceholder":"<num>","numbers":"keep","stopwords":null},' +
+        '"vectors":{"dimensions":100,"enabled":false,"exponent":1,"oversampling":20,"powerIterations":4,"seed":1},' +
         '"vocabulary":{"maxSize":0,"minCount":5,"minDocFreq":1},' +
-        '"weighting":{"idf":"plain","logBase":"2","scheme":"ppmi","shift":1,"smoothing":0.75,"tf":"raw"}}',
+        '"weighting":{"idf":"plain","logBase":"2","scheme":"ppmi","shift":1,"smoothing":0.75,"tf":"raw"},"workers":0}',
     );
   });
 

@@ -6,8 +6,10 @@ import type {
   ContextsConfig,
   InputConfig,
   KindredConfig,
+  NeighborsConfig,
   OutputConfig,
   TokenizeConfig,
+  VectorsConfig,
   VocabularyConfig,
   WeightingConfig,
 } from '../src/config/types.js';
@@ -54,7 +56,10 @@ const BRIEF_DEFAULTS: KindredConfig = {
   weighting: { scheme: 'ppmi', smoothing: 0.75, shift: 1, logBase: '2', tf: 'raw', idf: 'plain' },
   normalize: 'l2',
   output: { parts: 4, valueType: 'float32' },
+  vectors: { enabled: false, dimensions: 100, exponent: 1, oversampling: 20, powerIterations: 4, seed: 1 },
+  neighbors: { enabled: false, measure: 'cosine', k: 10, terms: 0, source: 'rows' },
   memoryMiB: 1024,
+  workers: 0,
 };
 
 /** Reads `default` of every leaf straight from the schema JSON (a separate walk from the library's). */
@@ -107,17 +112,19 @@ describe('schema file and defaults', () => {
   it('schema keys are exactly the keys of the TypeScript config types', () => {
     // `satisfies` makes tsc fail when types.ts gains or loses a key; the expectation fails when the schema does.
     const keys = {
-      top: { input: 1, tokenize: 1, vocabulary: 1, contexts: 1, weighting: 1, normalize: 1, output: 1, memoryMiB: 1 } satisfies Record<keyof KindredConfig, 1>,
+      top: { input: 1, tokenize: 1, vocabulary: 1, contexts: 1, weighting: 1, normalize: 1, output: 1, vectors: 1, neighbors: 1, memoryMiB: 1, workers: 1 } satisfies Record<keyof KindredConfig, 1>,
       input: { paths: 1, format: 1, textField: 1, idField: 1, onBadRecord: 1 } satisfies Record<keyof InputConfig, 1>,
       tokenize: { lowercase: 1, minLength: 1, numbers: 1, numberPlaceholder: 1, stopwords: 1 } satisfies Record<keyof TokenizeConfig, 1>,
       vocabulary: { minCount: 1, maxSize: 1, minDocFreq: 1 } satisfies Record<keyof VocabularyConfig, 1>,
       contexts: { type: 1, window: 1, direction: 1, weighting: 1 } satisfies Record<keyof ContextsConfig, 1>,
       weighting: { scheme: 1, smoothing: 1, shift: 1, logBase: 1, tf: 1, idf: 1 } satisfies Record<keyof WeightingConfig, 1>,
       output: { parts: 1, valueType: 1 } satisfies Record<keyof OutputConfig, 1>,
+      vectors: { enabled: 1, dimensions: 1, exponent: 1, oversampling: 1, powerIterations: 1, seed: 1 } satisfies Record<keyof VectorsConfig, 1>,
+      neighbors: { enabled: 1, measure: 1, k: 1, terms: 1, source: 1 } satisfies Record<keyof NeighborsConfig, 1>,
     };
     const props = schema.properties ?? {};
     expect(Object.keys(props).filter((k) => k !== '$schema').sort()).toEqual(Object.keys(keys.top).sort());
-    for (const section of ['input', 'tokenize', 'vocabulary', 'contexts', 'weighting', 'output'] as const) {
+    for (const section of ['input', 'tokenize', 'vocabulary', 'contexts', 'weighting', 'output', 'vectors', 'neighbors'] as const) {
       expect(Object.keys(props[section].properties ?? {}).sort(), section).toEqual(Object.keys(keys[section]).sort());
     }
   });
@@ -241,13 +248,20 @@ describe('validateConfig error messages (one line each, exact)', () => {
     [
       'unknown top-level key',
       minimal({ contxts: {} }),
-      'unknown key "contxts" (allowed: $schema, input, tokenize, vocabulary, contexts, weighting, normalize, output, memoryMiB), did you mean "contexts"?',
+      'unknown key "contxts" (allowed: $schema, input, tokenize, vocabulary, contexts, weighting, normalize, output, vectors, neighbors, memoryMiB, workers), did you mean "contexts"?',
     ],
     [
       'cross-key: tfidf needs document contexts',
       minimal({ weighting: { scheme: 'tfidf' } }),
       'weighting.scheme "tfidf" requires contexts.type "document", found contexts.type "window"; set contexts.type to "document" or choose another weighting.scheme',
     ],
+    [
+      'cross-key: a neighbour table on vectors needs vectors',
+      minimal({ neighbors: { enabled: true, source: 'vectors' } }),
+      'neighbors.source "vectors" requires vectors.enabled true; set vectors.enabled to true or neighbors.source to "rows"',
+    ],
+    ['neighbour measure names', minimal({ neighbors: { measure: 'cos' } }), 'neighbors.measure: "cos" is not one of euclidean, manhattan, cosine, kl, js, jaccard, dice, overlap, matching'],
+    ['vector exponent range', minimal({ vectors: { exponent: 3 } }), 'vectors.exponent: 3 is above the maximum 2'],
   ];
   for (const [name, raw, expected] of cases) {
     it(name, () => {

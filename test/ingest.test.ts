@@ -58,7 +58,7 @@ describe('text-lines', () => {
       [5, null, 'last line without newline'],
     ]);
     expect(docs.every((d) => d.file === file)).toBe(true);
-    expect(stats).toEqual({ files: 1, bytes: statSync(file).size, documents: 3, invalidUtf8Replaced: 0, badRecordsSkipped: 0 });
+    expect(stats).toEqual({ files: 1, bytes: statSync(file).size, documents: 3, invalidUtf8Replaced: 0, badRecordsSkipped: 0, binaryFilesSkipped: 0 });
   });
 
   it('an empty file gives no documents', async () => {
@@ -364,7 +364,7 @@ describe('stats and progress', () => {
     const seen: number[] = [];
     const { stats } = await read([a, b], {}, (n) => seen.push(n));
     const total = statSync(a).size + statSync(b).size;
-    expect(stats).toEqual({ files: 2, bytes: total, documents: 50000, invalidUtf8Replaced: 0, badRecordsSkipped: 0 });
+    expect(stats).toEqual({ files: 2, bytes: total, documents: 50000, invalidUtf8Replaced: 0, badRecordsSkipped: 0, binaryFilesSkipped: 0 });
     expect(seen.length).toBeGreaterThan(2);
     expect(seen.every((n, i) => i === 0 || n > seen[i - 1])).toBe(true);
     expect(seen[seen.length - 1]).toBe(total);

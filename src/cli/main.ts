@@ -4,6 +4,9 @@ import { TOOL_VERSION } from '../version.js';
 import { registerBuild } from './build.js';
 import { registerNeighbors } from './neighbors.js';
 import { registerInspect } from './inspect.js';
+import { registerVerify } from './verify.js';
+import { registerServe } from './serve.js';
+import { registerExport } from './export.js';
 
 const program = new Command();
 program
@@ -19,4 +22,7 @@ program
 registerBuild(program);
 registerNeighbors(program);
 registerInspect(program);
+registerVerify(program);
+registerServe(program);
+registerExport(program);
 await program.parseAsync(process.argv);

@@ -64,6 +64,29 @@ export interface OutputConfig {
   valueType: ValueType;
 }
 
+export type NeighborMeasure = 'euclidean' | 'manhattan' | 'cosine' | 'kl' | 'js' | 'jaccard' | 'dice' | 'overlap' | 'matching';
+export type NeighborSource = 'rows' | 'vectors';
+
+export interface VectorsConfig {
+  enabled: boolean;
+  /** Leading singular values kept: the length of each term vector. */
+  dimensions: number;
+  /** Eigenvalue weighting exponent p: vectors = U·Σ^p. */
+  exponent: number;
+  oversampling: number;
+  powerIterations: number;
+  seed: number;
+}
+
+export interface NeighborsConfig {
+  enabled: boolean;
+  measure: NeighborMeasure;
+  k: number;
+  /** The this-many most frequent terms get a list; 0 means every term. */
+  terms: number;
+  source: NeighborSource;
+}
+
 export interface KindredConfig {
   input: InputConfig;
   tokenize: TokenizeConfig;
@@ -72,6 +95,10 @@ export interface KindredConfig {
   weighting: WeightingConfig;
   normalize: Normalization;
   output: OutputConfig;
+  vectors: VectorsConfig;
+  neighbors: NeighborsConfig;
   /** Memory budget for the counting stage in MiB; the accumulator spills sorted runs to disk past it. */
   memoryMiB: number;
+  /** Worker threads of the counting stage; 0 means one per CPU core. Outputs do not depend on it. */
+  workers: number;
 }

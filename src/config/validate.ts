@@ -195,6 +195,12 @@ function crossKeyIssues(cfg: KindredConfig): ConfigIssue[] {
         'set contexts.type to "document" or choose another weighting.scheme',
     });
   }
+  if (cfg.neighbors.enabled && cfg.neighbors.source === 'vectors' && !cfg.vectors.enabled) {
+    issues.push({
+      path: '',
+      message: 'neighbors.source "vectors" requires vectors.enabled true; set vectors.enabled to true or neighbors.source to "rows"',
+    });
+  }
   return issues;
 }
 

@@ -1,75 +1,198 @@
-import { promises as fsp } from 'node:fs';
+import { promises as fsp, rmSync } from 'node:fs';
 import path from 'node:path';
 import type { KindredConfig } from '../config/types.js';
-import { readDocuments } from '../ingest/index.js';
+import { planSplits, readSplit, type InputSplit } from '../ingest/split.js';
 import { emptyIngestStats, type IngestStats } from '../ingest/types.js';
-import type { Tokenizer } from '../tokenize/index.js';
+import { runMap } from '../exec/pool.js';
 import type { Progress } from '../progress.js';
 import type { Marginals } from '../weight/types.js';
 import { ShardWriter, partFileName } from '../store/shards.js';
 import type { Vocabulary } from '../store/vocab-file.js';
-import { TermCounter } from './term-counter.js';
-import { CooccurrenceCounter } from './cooccur.js';
+import { planAccumulators, windowWeights } from './cooccur.js';
+import { RowsSource, DenseSource, RunReader, mergeSources, type SortedSource } from './runs.js';
+import { TermTable, compareBytes, type TermBytes } from './term-table.js';
 import type { RowRange } from './partition.js';
 
-/** Pass 1: term counts and document frequencies over the whole corpus. */
-export async function countTerms(
-  files: string[], cfg: KindredConfig, tokenizer: Tokenizer, stats: IngestStats, progress: Progress, totalBytes: number,
-): Promise<{ vocab: Vocabulary; counter: TermCounter }> {
-  const counter = new TermCounter();
-  progress.start('vocabulary', totalBytes, 'B');
-  let doc = 0;
-  for await (const d of readDocuments(files, cfg.input, stats, (b) => progress.update(b))) {
-    const docIndex = doc++;
-    tokenizer.tokenize(d.text, (t) => counter.add(t, docIndex));
-  }
-  const vocab = counter.finish(cfg.vocabulary);
-  progress.end(`${stats.documents} documents, ${counter.tokens} tokens, ${counter.size} distinct terms, ${vocab.terms.length} kept`);
-  return { vocab, counter };
+/** How the counting passes run: where relative config paths start, and how many worker threads to use. */
+export interface CountExec {
+  baseDir: string;
+  workers: number;
 }
 
-/** Pass 2: co-occurrence counts into row-partitioned shards; returns the marginals. */
+/** Pass 1's result: the vocabulary, corpus sizes, and the splits pass 2 reads again. */
+export interface TermsResult {
+  vocab: Vocabulary;
+  /** tokens: all tokens read; size: distinct terms before the vocabulary filters. */
+  counter: { tokens: number; size: number };
+  /** The input splits pass 1 read (pass 2 reads the same ones). */
+  splits: InputSplit[];
+  /** Documents of each split, for corpus-wide document numbers in pass 2. */
+  splitDocuments: number[];
+  threads: number;
+}
+
+/** Bytes per split: a few splits per worker so threads stay busy, none too small to be worth a task. */
+function splitBytes(totalBytes: number, workers: number): number {
+  return Math.max(1 << 20, Math.ceil(totalBytes / (workers * 4)));
+}
+
+function addStats(into: IngestStats, from: IngestStats): void {
+  into.files += from.files;
+  into.bytes += from.bytes;
+  into.documents += from.documents;
+  into.invalidUtf8Replaced += from.invalidUtf8Replaced;
+  into.badRecordsSkipped += from.badRecordsSkipped;
+  into.binaryFilesSkipped += from.binaryFilesSkipped;
+}
+
+/** Pass 1: term counts and document frequencies over the whole corpus, on worker threads. */
+export async function countTerms(
+  files: string[], cfg: KindredConfig, exec: CountExec, stats: IngestStats, progress: Progress, totalBytes: number,
+): Promise<TermsResult> {
+  const splits = planSplits(files, cfg.input, splitBytes(totalBytes, exec.workers));
+  progress.start('vocabulary', totalBytes, 'B');
+  let done = 0;
+  const run = await runMap('vocabulary', () => ({ input: cfg.input, tokenize: cfg.tokenize, baseDir: exec.baseDir }), splits, exec.workers, (n) => progress.update((done += n)));
+  for (const r of run.results) addStats(stats, r.stats);
+
+  // Merge the partial counts by term bytes; the result does not depend on which thread read which split.
+  const table = new TermTable(run.partials.reduce((s, p) => Math.max(s, p.counts.length), 1024));
+  let counts = new Float64Array(table.starts.length);
+  let docFreqs = new Uint32Array(table.starts.length);
+  let tokens = 0;
+  for (const p of run.partials) {
+    tokens += p.tokens;
+    const { arena, offsets } = p.terms;
+    for (let i = 0; i < p.counts.length; i++) {
+      const id = table.intern(arena, offsets[i], offsets[i + 1]);
+      if (id >= counts.length) {
+        const c = new Float64Array(counts.length * 2);
+        c.set(counts);
+        counts = c;
+        const d = new Uint32Array(docFreqs.length * 2);
+        d.set(docFreqs);
+        docFreqs = d;
+      }
+      counts[id] += p.counts[i];
+      docFreqs[id] += p.docFreqs[i];
+    }
+  }
+
+  // Keep terms by count and document frequency; ids by descending count, ties by term in code point order
+  // (byte order of UTF-8 is code point order).
+  const v = cfg.vocabulary;
+  const kept: number[] = [];
+  for (let id = 0; id < table.size; id++) if (counts[id] >= v.minCount && docFreqs[id] >= v.minDocFreq) kept.push(id);
+  const { arena, starts } = table;
+  kept.sort((a, b) => counts[b] - counts[a] || compareBytes(arena, starts[a], starts[a + 1], arena, starts[b], starts[b + 1]));
+  const size = v.maxSize > 0 ? Math.min(v.maxSize, kept.length) : kept.length;
+  const decoder = new TextDecoder();
+  const vocab: Vocabulary = { terms: new Array<string>(size), counts: new Float64Array(size), docFreqs: new Uint32Array(size) };
+  for (let i = 0; i < size; i++) {
+    const id = kept[i];
+    vocab.terms[i] = decoder.decode(arena.subarray(starts[id], starts[id + 1]));
+    vocab.counts[i] = counts[id];
+    vocab.docFreqs[i] = docFreqs[id];
+  }
+  progress.end(`${stats.documents} documents, ${tokens} tokens, ${table.size} distinct terms, ${size} kept (${run.threads} thread${run.threads > 1 ? 's' : ''})`);
+  return {
+    vocab,
+    counter: { tokens, size: table.size },
+    splits,
+    splitDocuments: run.results.map((r) => r.stats.documents),
+    threads: run.threads,
+  };
+}
+
+/** The terms as UTF-8 bytes back to back, in id order. */
+function encodeTerms(terms: string[]): TermBytes {
+  const encoded = terms.map((t) => Buffer.from(t, 'utf8'));
+  const offsets = new Uint32Array(terms.length + 1);
+  for (let i = 0; i < terms.length; i++) offsets[i + 1] = offsets[i] + encoded[i].length;
+  const arena = new Uint8Array(offsets[terms.length]);
+  for (let i = 0; i < terms.length; i++) arena.set(encoded[i], offsets[i]);
+  return { arena, offsets };
+}
+
+/** Documents of each split (a reading pass without tokenizing). */
+async function countDocuments(splits: InputSplit[], cfg: KindredConfig): Promise<number[]> {
+  const out: number[] = [];
+  const sink = { bytes: () => {}, text: () => {} };
+  for (const split of splits) {
+    const stats = emptyIngestStats();
+    await readSplit(split, cfg.input, stats, sink, () => {});
+    out.push(stats.documents);
+  }
+  return out;
+}
+
+/** Bytes of read buffer per spilled run during the merge (at least 64 KiB each, 64 MiB in all). */
+const MERGE_BUFFER_BYTES = 64 << 20;
+
+/** Pass 2: co-occurrence counts into row-partitioned shards, on worker threads; returns the marginals. */
 export async function countPairs(
-  files: string[], cfg: KindredConfig, tokenizer: Tokenizer, vocab: Vocabulary, nCols: number, ranges: RowRange[],
+  files: string[], cfg: KindredConfig, exec: CountExec, terms: TermsResult | Vocabulary, nCols: number, ranges: RowRange[],
   workDir: string, capacity: number, progress: Progress, totalBytes: number,
-): Promise<{ marginals: Marginals; entries: number[]; pairs: number; spilledRuns: number }> {
-  const ids = new Map<string, number>();
-  vocab.terms.forEach((t, i) => ids.set(t, i));
+): Promise<{ marginals: Marginals; entries: number[]; pairs: number; spilledRuns: number; threads: number }> {
+  // Given only the vocabulary (pass 1 ran earlier, or elsewhere), the splits are planned again and, for
+  // document contexts, their documents counted.
+  const vocab = 'vocab' in terms ? terms.vocab : terms;
+  const splits = 'vocab' in terms ? terms.splits : planSplits(files, cfg.input, splitBytes(totalBytes, exec.workers));
+  const splitDocuments = 'vocab' in terms ? terms.splitDocuments
+    : cfg.contexts.type === 'document' ? await countDocuments(splits, cfg) : splits.map(() => 0);
+  const nRows = vocab.terms.length;
   const spillDir = path.join(workDir, 'spill');
   await fsp.mkdir(spillDir, { recursive: true });
-  const counter = new CooccurrenceCounter({
-    contexts: cfg.contexts,
-    nRows: vocab.terms.length,
-    nCols,
-    capacity,
-    spillDir,
+  const mappers = Math.max(1, Math.min(exec.workers, splits.length));
+  const plan = planAccumulators(cfg.memoryMiB, mappers, cfg.contexts, nRows, capacity);
+  let firstDocument = 0;
+  const tasks = splits.map((split, i) => {
+    const task = { split, firstDocument };
+    firstDocument += splitDocuments[i];
+    return task;
   });
   progress.start('count', totalBytes, 'B');
-  let buf = new Int32Array(4096);
-  let len = 0;
-  const push = (t: string): void => {
-    if (len === buf.length) {
-      const bigger = new Int32Array(buf.length * 2);
-      bigger.set(buf);
-      buf = bigger;
-    }
-    buf[len++] = ids.get(t) ?? -1;
-  };
-  let doc = 0;
-  const passStats = emptyIngestStats();
-  for await (const d of readDocuments(files, cfg.input, passStats, (b) => progress.update(b))) {
-    len = 0;
-    tokenizer.tokenize(d.text, push);
-    counter.addDocument(buf, len, doc++);
+  let done = 0;
+  const run = await runMap('pairs', (mapper) => ({
+    input: cfg.input, tokenize: cfg.tokenize, baseDir: exec.baseDir, vocabulary: encodeTerms(vocab.terms), contexts: cfg.contexts,
+    nCols, denseSize: plan.denseSize, capacity: plan.capacity, spillDir, mapper,
+  }), tasks, exec.workers, (n) => progress.update((done += n)));
+
+  // Merge: the dense blocks summed cell by cell, every mapper's sorted hash entries, every spilled run.
+  const sources: SortedSource[] = [];
+  const runs: string[] = [];
+  let pairs = 0;
+  for (const p of run.partials) {
+    pairs += p.pairs;
+    runs.push(...p.runs);
+    sources.push(new RowsSource(p.rowStart, p.cols, p.values));
   }
+  const first = run.partials[0];
+  if (first.denseSize > 0) sources.push(new DenseSource(run.partials.map((p) => p.dense), first.denseSize, first.triangle));
+  const bufferRecords = Math.max(4096, Math.floor(MERGE_BUFFER_BYTES / 16 / Math.max(1, runs.length)));
+  for (const f of runs) sources.push(new RunReader(f, bufferRecords));
+
+  const rowSums = new Float64Array(nRows);
+  const colSums = new Float64Array(nCols);
+  const rowNnz = new Uint32Array(nRows);
+  let total = 0;
+  const { scale } = windowWeights(cfg.contexts);
   const writers = ranges.map((_, i) => new ShardWriter(path.join(workDir, 'counts', partFileName(i)), 'float64'));
   let part = 0;
-  const marginals = counter.finish((row, col, count) => {
-    while (row >= ranges[part].endRow) part++;
-    writers[part].append(row, col, count);
+  mergeSources(sources, nCols, (r, c, scaled) => {
+    rowSums[r] += scaled;
+    colSums[c] += scaled;
+    rowNnz[r]++;
+    total += scaled;
+    while (r >= ranges[part].endRow) part++;
+    writers[part].append(r, c, scaled / scale);
   });
+  for (const f of runs) rmSync(f, { force: true });
   for (const w of writers) await w.close();
-  progress.end(`${counter.pairs} pair events, ${writers.reduce((s, w) => s + w.entries, 0)} nonzero counts, ${counter.spilledRuns} spilled runs`);
-  return { marginals, entries: writers.map((w) => w.entries), pairs: counter.pairs, spilledRuns: counter.spilledRuns };
+  for (let r = 0; r < nRows; r++) rowSums[r] /= scale;
+  for (let c = 0; c < nCols; c++) colSums[c] /= scale;
+  const marginals: Marginals = { nRows, nCols, rowSums, colSums, total: total / scale, rowNnz };
+  const entries = writers.map((w) => w.entries);
+  progress.end(`${pairs} pair events, ${entries.reduce((s, n) => s + n, 0)} nonzero counts, ${runs.length} spilled runs (${run.threads} thread${run.threads > 1 ? 's' : ''})`);
+  return { marginals, entries, pairs, spilledRuns: runs.length, threads: run.threads };
 }
-

@@ -43,10 +43,20 @@ export class RunWriter {
   }
 }
 
+/** A stream of (row, col, value) entries in ascending (row, col) order. */
+export interface SortedSource {
+  row: number;
+  col: number;
+  value: number;
+  done: boolean;
+  /** Moves to the next entry; sets done at the end. */
+  advance(): void;
+}
+
 /** Reads a run record by record through a fixed buffer. */
-export class RunReader {
+export class RunReader implements SortedSource {
   private readonly fd: number;
-  private readonly buf = Buffer.allocUnsafe(RECORD * BUFFER_RECORDS);
+  private readonly buf: Buffer;
   private have = 0;
   private at = 0;
   row = 0;
@@ -54,12 +64,12 @@ export class RunReader {
   value = 0;
   done = false;
 
-  constructor(readonly file: string) {
+  constructor(readonly file: string, bufferRecords = BUFFER_RECORDS) {
+    this.buf = Buffer.allocUnsafe(RECORD * Math.max(1, bufferRecords));
     this.fd = openSync(file, 'r');
     this.advance();
   }
 
-  /** Moves to the next record; sets done at the end. */
   advance(): void {
     if (this.at === this.have) {
       const bytes = readSync(this.fd, this.buf, 0, this.buf.length, null);
@@ -79,37 +89,123 @@ export class RunReader {
   }
 }
 
+/** Entries held as compressed sparse rows (rows ascending, columns ascending within a row), in memory. */
+export class RowsSource implements SortedSource {
+  private p = 0;
+  private r = 0;
+  row = 0;
+  col = 0;
+  value = 0;
+  done = false;
+
+  constructor(private readonly rowStart: Float64Array, private readonly cols: Uint32Array, private readonly values: Float64Array) {
+    this.advance();
+  }
+
+  advance(): void {
+    const p = this.p;
+    if (p >= this.cols.length) {
+      this.done = true;
+      return;
+    }
+    while (this.rowStart[this.r + 1] <= p) this.r++;
+    this.row = this.r;
+    this.col = this.cols[p];
+    this.value = this.values[p];
+    this.p = p + 1;
+  }
+}
+
 /**
- * k-way merge of sorted runs, summing equal (row, col) keys; emits in (row, col) order.
- * A binary heap over run indices keyed by row * nCols + col.
+ * The nonzero cells of a dense block of size D × D in (row, col) order. A triangle block holds each unordered
+ * pair once at hi*(hi+1)/2 + lo; both orientations are emitted, and a diagonal cell counts twice (the pair was
+ * seen from both of its ends).
  */
-export function mergeRuns(files: string[], nCols: number, emit: (row: number, col: number, value: number) => void): void {
-  const readers = files.map((f) => new RunReader(f)).filter((r) => !r.done);
-  const key = (r: RunReader): number => r.row * nCols + r.col;
-  const heap = readers.slice();
-  const less = (a: RunReader, b: RunReader): boolean => key(a) < key(b);
+export class DenseSource implements SortedSource {
+  private r = 0;
+  private c = -1;
+  row = 0;
+  col = 0;
+  value = 0;
+  done = false;
+
+  /** blocks: the dense blocks of several accumulators, summed cell by cell as they are read. */
+  constructor(private readonly blocks: Uint32Array[], private readonly D: number, private readonly triangle: boolean) {
+    this.advance();
+  }
+
+  private cell(i: number): number {
+    let v = 0;
+    for (const b of this.blocks) v += b[i];
+    return v;
+  }
+
+  advance(): void {
+    const { D, triangle } = this;
+    for (;;) {
+      if (++this.c >= D) {
+        this.c = 0;
+        if (++this.r >= D) {
+          this.done = true;
+          return;
+        }
+      }
+      const r = this.r;
+      const c = this.c;
+      let v: number;
+      if (!triangle) v = this.cell(r * D + c);
+      else if (r === c) v = 2 * this.cell(((r * (r + 1)) >>> 1) + r);
+      else v = r < c ? this.cell(((c * (c + 1)) >>> 1) + r) : this.cell(((r * (r + 1)) >>> 1) + c);
+      if (v !== 0) {
+        this.row = r;
+        this.col = c;
+        this.value = v;
+        return;
+      }
+    }
+  }
+}
+
+/**
+ * k-way merge of sorted sources, summing equal (row, col) keys; emits in (row, col) order.
+ * A binary heap over the sources keyed by row * nCols + col.
+ */
+export function mergeSources(sources: SortedSource[], nCols: number, emit: (row: number, col: number, value: number) => void): void {
+  const heap = sources.filter((s) => !s.done);
+  const keys = new Float64Array(heap.length);
+  const keyOf = (s: SortedSource): number => s.row * nCols + s.col;
+  for (let i = 0; i < heap.length; i++) keys[i] = keyOf(heap[i]);
   const down = (i: number): void => {
+    const n = heap.length;
     for (;;) {
       const l = 2 * i + 1;
       const r = l + 1;
       let m = i;
-      if (l < heap.length && less(heap[l], heap[m])) m = l;
-      if (r < heap.length && less(heap[r], heap[m])) m = r;
+      if (l < n && keys[l] < keys[m]) m = l;
+      if (r < n && keys[r] < keys[m]) m = r;
       if (m === i) return;
-      [heap[i], heap[m]] = [heap[m], heap[i]];
+      const s = heap[i];
+      heap[i] = heap[m];
+      heap[m] = s;
+      const k = keys[i];
+      keys[i] = keys[m];
+      keys[m] = k;
       i = m;
     }
   };
   for (let i = (heap.length >> 1) - 1; i >= 0; i--) down(i);
-  let curRow = -1;
-  let curCol = -1;
+  let curKey = -1;
+  let curRow = 0;
+  let curCol = 0;
   let sum = 0;
   while (heap.length > 0) {
     const top = heap[0];
-    if (top.row === curRow && top.col === curCol) {
+    const key = keys[0];
+    if (key === curKey) {
       sum += top.value;
     } else {
-      if (curRow >= 0) emit(curRow, curCol, sum);
+      if (curKey >= 0) emit(curRow, curCol, sum);
+      curKey = key;
       curRow = top.row;
       curCol = top.col;
       sum = top.value;
@@ -117,9 +213,20 @@ export function mergeRuns(files: string[], nCols: number, emit: (row: number, co
     top.advance();
     if (top.done) {
       const last = heap.pop()!;
-      if (heap.length > 0 && last !== top) heap[0] = last;
+      const lastKey = keys[heap.length];
+      if (heap.length > 0 && last !== top) {
+        heap[0] = last;
+        keys[0] = lastKey;
+      }
+    } else {
+      keys[0] = keyOf(top);
     }
     if (heap.length > 0) down(0);
   }
-  if (curRow >= 0) emit(curRow, curCol, sum);
+  if (curKey >= 0) emit(curRow, curCol, sum);
+}
+
+/** k-way merge of sorted run files (see mergeSources). */
+export function mergeRuns(files: string[], nCols: number, emit: (row: number, col: number, value: number) => void): void {
+  mergeSources(files.map((f) => new RunReader(f)), nCols, emit);
 }

@@ -1,4 +1,5 @@
 import { open } from 'node:fs/promises';
+import { constants, type Stats } from 'node:fs';
 import type { Readable } from 'node:stream';
 import { createGunzip } from 'node:zlib';
 import { KindredError } from '../errors.js';
@@ -20,8 +21,11 @@ export async function* readContentBytes(file: string, onDiskBytes: (n: number) =
   let source: Readable;
   let gzipped: boolean;
   try {
-    const handle = await open(file, 'r');
+    // O_NONBLOCK: opening a FIFO must not wait for a writer (it would hang the build); fstat then refuses it
+    const handle = await open(file, constants.O_RDONLY | constants.O_NONBLOCK);
     try {
+      const st = await handle.stat();
+      if (!st.isFile()) throw new KindredError(`${file}: cannot read input file: ${notRegular(st)}; list regular files only`);
       const magic = Buffer.alloc(2);
       const { bytesRead } = await handle.read(magic, 0, 2, 0);
       gzipped = bytesRead === 2 && magic[0] === GZIP_MAGIC_0 && magic[1] === GZIP_MAGIC_1;
@@ -75,6 +79,14 @@ export async function* readContentBytes(file: string, onDiskBytes: (n: number) =
   }
   // A file shorter than three bytes cannot hold a byte-order mark.
   if (pending && pending.length > 0) yield pending;
+}
+
+function notRegular(st: Stats): string {
+  if (st.isDirectory()) return 'it is a directory (EISDIR)';
+  if (st.isFIFO()) return 'it is a FIFO (named pipe), not a regular file';
+  if (st.isSocket()) return 'it is a socket, not a regular file';
+  if (st.isCharacterDevice() || st.isBlockDevice()) return 'it is a device, not a regular file';
+  return 'it is not a regular file';
 }
 
 function isZlibError(e: unknown): e is Error {

@@ -46,6 +46,8 @@ export function recordFields(
   const text = lookup(record, textPath);
   if (text === undefined) return { ok: false, reason: `text field "${textField}" is missing` };
   if (typeof text !== 'string') return { ok: false, reason: `text field "${textField}" is ${kindOf(text)}, not a string` };
+  // a NUL character is never text (docs/reliability.md): the record is bad, like a binary file
+  if (text.indexOf('\0') !== -1) return { ok: false, reason: `text field "${textField}" holds a NUL character (binary data?)` };
   let id: string | null = null;
   if (idPath !== null) {
     const raw = lookup(record, idPath);

@@ -46,7 +46,18 @@ async function listDir(dir: string): Promise<Dirent[]> {
 
 type Kind = 'file' | 'dir' | 'other';
 
-/** The kind of a directory entry, following symbolic links. */
+/** What a special file is, for messages. */
+function specialKind(st: Dirent | Stats): string {
+  if (st.isFIFO()) return 'a FIFO (named pipe)';
+  if (st.isSocket()) return 'a socket';
+  if (st.isCharacterDevice() || st.isBlockDevice()) return 'a device';
+  return 'not a regular file';
+}
+
+/**
+ * The kind of a directory entry, following symbolic links. A FIFO, socket or device is an error: reading a
+ * FIFO would wait for a writer forever, and silently leaving a file out would change the corpus unseen.
+ */
 async function kindOf(dir: string, entry: Dirent): Promise<Kind> {
   if (entry.isFile()) return 'file';
   if (entry.isDirectory()) return 'dir';
@@ -57,6 +68,16 @@ async function kindOf(dir: string, entry: Dirent): Promise<Kind> {
     throw new KindredError(`input.paths: "${full}" is a broken symbolic link; fix or remove it`);
   }
   return target.isFile() ? 'file' : target.isDirectory() ? 'dir' : 'other';
+}
+
+/** The error for a special file that a walk or a pattern selected. */
+async function refuseOther(full: string): Promise<KindredError> {
+  const st = await stat(full).catch(() => null);
+  return notRegular(full, st === null ? 'not a regular file' : specialKind(st));
+}
+
+function notRegular(full: string, what: string): KindredError {
+  return new KindredError(`input.paths: "${full}" is ${what}, not a regular file or directory; remove it or narrow input.paths`);
 }
 
 /** Walks a directory recursively, collecting regular files; symlinked directories are followed once. */
@@ -70,6 +91,7 @@ async function walk(dir: string, out: string[], visited: Set<string>): Promise<v
     const kind = await kindOf(dir, entry);
     if (kind === 'file') out.push(full);
     else if (kind === 'dir') await walk(full, out, visited);
+    else throw await refuseOther(full);
   }
 }
 
@@ -117,6 +139,7 @@ async function expandSegments(dir: string, segments: string[], i: number, out: s
     if (last) {
       if (st.isFile()) out.push(full);
       else if (st.isDirectory()) await walk(full, out, new Set());
+      else throw notRegular(full, specialKind(st));
     } else if (st.isDirectory()) {
       await expandSegments(full, segments, i + 1, out, seen);
     }
@@ -132,6 +155,7 @@ async function expandSegments(dir: string, segments: string[], i: number, out: s
     if (last) {
       if (kind === 'file') out.push(full);
       else if (kind === 'dir') await walk(full, out, new Set());
+      else throw await refuseOther(full);
     } else if (kind === 'dir') {
       await expandSegments(full, segments, i + 1, out, seen);
     }

@@ -19,11 +19,18 @@ export interface IngestStats {
   documents: number;
   /** count of U+FFFD replacements made for invalid byte sequences */
   invalidUtf8Replaced: number;
-  /** Records skipped under `input.onBadRecord: "skip"`. */
+  /** Records skipped under `input.onBadRecord: "skip"` (bad JSON, a NUL byte, a line over the size limit). */
   badRecordsSkipped: number;
+  /** Whole files skipped as binary (a NUL byte in their first 8 KiB) under `input.onBadRecord: "skip"`. */
+  binaryFilesSkipped: number;
 }
 
 /** A fresh set of zeroed counters. */
 export function emptyIngestStats(): IngestStats {
-  return { files: 0, bytes: 0, documents: 0, invalidUtf8Replaced: 0, badRecordsSkipped: 0 };
+  return { files: 0, bytes: 0, documents: 0, invalidUtf8Replaced: 0, badRecordsSkipped: 0, binaryFilesSkipped: 0 };
+}
+
+/** Adds every counter of `from` into `into` (for stats gathered per split or per thread). */
+export function addIngestStats(into: IngestStats, from: IngestStats): void {
+  for (const k of Object.keys(into) as (keyof IngestStats)[]) into[k] += from[k] ?? 0;
 }

@@ -28,6 +28,14 @@ export function describeBuild(dir: string, m: Manifest): string {
   lines.push(`weighting   ${scheme}, log base ${w.logBase}, ${c.normalize} rows, ${c.output.valueType}`);
   lines.push(`matrix      ${m.matrix.rows} terms x ${m.matrix.cols} ${m.matrix.columns}; ${m.matrix.countsEntries} counts, ${m.matrix.weightedEntries} weights`);
   lines.push(`parts       ${m.parts.length}: ${m.parts.map((p) => `[${p.firstRow},${p.endRow})`).join(' ')}`);
+  if (m.vectors) {
+    const v = m.vectors;
+    lines.push(`vectors     ${v.rows} x ${v.dimensions}, U·Σ^${v.exponent}, σ₁ ${v.singularValues[0]?.toPrecision(6)}, ${(100 * v.energyCaptured).toFixed(1)}% of the squared norm (seed ${v.seed}, ${v.powerIterations} power iterations)`);
+  }
+  if (m.neighbors) {
+    const n = m.neighbors;
+    lines.push(`neighbors   ${n.measure} on ${n.source}, k ${n.k}, ${n.queried} terms, ${n.rows} rows (score = ${n.score})`);
+  }
   lines.push(`stages      ${m.stages.map((s) => `${s.name} ${s.seconds.toFixed(2)}s`).join(', ')}`);
   const outBytes = m.files.reduce((s, f) => s + f.bytes, 0);
   lines.push(`files       ${m.files.length}, ${bytes(outBytes)}`);

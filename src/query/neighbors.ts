@@ -1,7 +1,7 @@
 import path from 'node:path';
 import { KindredError } from '../errors.js';
 import { getMeasure, type SparseVector } from '../measures/index.js';
-import { readManifest, type Manifest } from '../store/manifest.js';
+import { readManifest, resolveBuildDir, type Manifest } from '../store/manifest.js';
 import { readShard } from '../store/shards.js';
 import { readVocabulary, type Vocabulary } from '../store/vocab-file.js';
 import type { RowBlock } from '../weight/types.js';
@@ -17,17 +17,20 @@ export interface Neighbor {
 /** A loaded build: manifest and vocabulary, with a term index. */
 export interface LoadedBuild {
   dir: string;
+  /** The folder the files are read from: `dir` resolved once, so a build published meanwhile cannot mix in. */
+  root: string;
   manifest: Manifest;
   vocab: Vocabulary;
   ids: Map<string, number>;
 }
 
 export function loadBuild(dir: string): LoadedBuild {
-  const manifest = readManifest(dir);
-  const vocab = readVocabulary(path.join(dir, 'vocab.arrow'));
+  const root = resolveBuildDir(dir);
+  const manifest = readManifest(root);
+  const vocab = readVocabulary(path.join(root, 'vocab.arrow'));
   const ids = new Map<string, number>();
   vocab.terms.forEach((t, i) => ids.set(t, i));
-  return { dir, manifest, vocab, ids };
+  return { dir, root, manifest, vocab, ids };
 }
 
 /** The id of a query term, normalized as the build's tokenizer did; an unknown term suggests the closest ones. */
@@ -48,7 +51,7 @@ function rowOf(block: RowBlock, r: number): SparseVector {
 
 function readPart(build: LoadedBuild, index: number): RowBlock {
   const p = build.manifest.parts[index];
-  return readShard(path.join(build.dir, p.weightedFile), p.firstRow, p.endRow);
+  return readShard(path.join(build.root, p.weightedFile), p.firstRow, p.endRow);
 }
 
 /** The weighted row of term `id`. */

@@ -1,7 +1,9 @@
-import { readFileSync } from 'node:fs';
+import { readFileSync, realpathSync } from 'node:fs';
 import path from 'node:path';
 import type { KindredConfig } from '../config/types.js';
 import type { IngestStats } from '../ingest/types.js';
+import type { VectorsRecord } from '../reduce/stage.js';
+import type { NeighborsRecord } from '../query/table-stage.js';
 import { KindredError } from '../errors.js';
 
 export const MANIFEST_FILE = 'manifest.json';
@@ -18,7 +20,10 @@ export interface StageRecord {
   name: string;
   /** Hash of the stage's inputs and the settings it depends on. */
   key: string;
+  /** Seconds this build spent on the stage (checking its files when reused). */
   seconds: number;
+  /** True when the stage's output was found finished in the work area and reused. */
+  reused: boolean;
   /** Stage-specific counts (documents, tokens, rows, entries ...). */
   counts: Record<string, number>;
 }
@@ -61,6 +66,23 @@ export interface Manifest {
   stages: StageRecord[];
   parts: PartRecord[];
   files: FileRecord[];
+  /** Present when the build computed vectors.arrow (vectors.enabled). */
+  vectors?: VectorsRecord;
+  /** Present when the build computed neighbors.arrow (neighbors.enabled): measure, k, source, … */
+  neighbors?: NeighborsRecord;
+}
+
+/**
+ * The folder a build path stands for now. `kindred build --out DIR` publishes DIR as a symbolic link that a
+ * later build switches; a reader that opens several files resolves DIR once, so all of them come from the
+ * same build (the previous build is kept until the next one is published).
+ */
+export function resolveBuildDir(dir: string): string {
+  try {
+    return realpathSync(dir);
+  } catch {
+    return dir;
+  }
 }
 
 export function readManifest(buildDir: string): Manifest {

