@@ -3,7 +3,7 @@ import { describe, it, expect } from 'vitest';
 import { mkdtempSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
-import { ShardWriter, readShard, readArrowTable } from '../src/store/shards.js';
+import { ShardWriter, readShard, readShardBlocks, readArrowTable } from '../src/store/shards.js';
 
 describe('ShardWriter', () => {
   for (const valueType of ['float32', 'float64'] as const) {
@@ -23,4 +23,34 @@ describe('ShardWriter', () => {
       expect(block.values[perRow * 7 + 5]).toBe(7 + 5 / 4);
     });
   }
+
+  it('streams blocks of complete rows that together equal the whole shard, rows spanning batches included', async () => {
+    const file = path.join(mkdtempSync(path.join(os.tmpdir(), 'kindred-shard-')), 'part.arrow');
+    const w = new ShardWriter(file, 'float64');
+    // rows of 0 .. 1.5M entries, so some rows span two or three record batches of 2^20 entries
+    const lengths = [3, 1_500_000, 0, 700_000, 5, 1_100_000, 1];
+    lengths.forEach((len, r) => {
+      for (let c = 0; c < len; c++) w.append(10 + r, c, r * 1e7 + c);
+    });
+    await w.close();
+    const whole = readShard(file, 10, 10 + lengths.length);
+    const seen: number[] = [];
+    let entries = 0;
+    for await (const block of readShardBlocks(file, 10, 10 + lengths.length)) {
+      for (let r = 0; r < block.indptr.length - 1; r++) {
+        const row = block.firstRow + r;
+        const n = block.indptr[r + 1] - block.indptr[r];
+        if (n === 0) continue;
+        seen.push(row);
+        expect(n).toBe(lengths[row - 10]);
+        const a = block.indptr[r];
+        const wa = whole.indptr[row - 10];
+        expect(block.cols[a + n - 1]).toBe(whole.cols[wa + n - 1]);
+        expect(block.values[a + n - 1]).toBe(whole.values[wa + n - 1]);
+        entries += n;
+      }
+    }
+    expect(seen).toEqual([10, 11, 13, 14, 15, 16]);
+    expect(entries).toBe(whole.indptr[lengths.length]);
+  });
 });

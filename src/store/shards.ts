@@ -1,6 +1,7 @@
-import { closeSync, openSync, writeSync, readFileSync, fsyncSync } from 'node:fs';
-import { RecordBatchFileWriter, RecordBatch, Schema, Field, Struct, makeData, tableFromIPC, Float32, Float64, Uint32 } from 'apache-arrow';
-import type { Table } from 'apache-arrow';
+import { closeSync, openSync, writeSync, readFileSync, fsyncSync, promises as fsp } from 'node:fs';
+import type { FileHandle } from 'node:fs/promises';
+import { RecordBatchFileWriter, RecordBatchReader, RecordBatch, Schema, Field, Struct, makeData, tableFromIPC, Float32, Float64, Uint32 } from 'apache-arrow';
+import type { Table, AsyncRecordBatchFileReader, AsyncRecordBatchStreamReader } from 'apache-arrow';
 import { KindredError } from '../errors.js';
 import type { RowBlock } from '../weight/types.js';
 import { wrapWriteError } from './atomic.js';
@@ -139,4 +140,80 @@ export function readShard(file: string, firstRow: number, endRow: number): RowBl
   }
   for (let r = 0; r < nRows; r++) indptr[r + 1] += indptr[r];
   return { firstRow, indptr, cols: cols.slice(), values };
+}
+
+/**
+ * Streams a shard of rows [firstRow, endRow) as blocks of complete rows, one record batch at a time, so a
+ * reader's memory is bounded by a batch (plus a row that spans batches) rather than by the shard.
+ */
+export async function* readShardBlocks(file: string, firstRow: number, endRow: number): AsyncGenerator<RowBlock> {
+  let handle: FileHandle;
+  try {
+    handle = await fsp.open(file, 'r');
+  } catch (e) {
+    throw new KindredError(`cannot read ${file}: ${(e as NodeJS.ErrnoException).code ?? String(e)}`);
+  }
+  try {
+    let reader: AsyncRecordBatchFileReader | AsyncRecordBatchStreamReader;
+    try {
+      reader = await RecordBatchReader.from(handle);
+      await reader.open();
+    } catch (e) {
+      throw new KindredError(`${file}: not a readable Arrow IPC file (${(e as Error).message})`);
+    }
+    // entries of the last row seen, which may continue in the next batch
+    let carryRows = new Uint32Array(0);
+    let carryCols = new Uint32Array(0);
+    let carryValues = new Float64Array(0);
+    for await (const batch of reader) {
+      const rowCol = batch.getChild('row');
+      const colCol = batch.getChild('col');
+      const valCol = batch.getChild('value');
+      if (!rowCol || !colCol || !valCol) throw new KindredError(`${file}: missing one of the columns row, col, value`);
+      const rawValues = valCol.toArray() as Float32Array | Float64Array;
+      const rows = concatU32(carryRows, rowCol.toArray() as Uint32Array);
+      const cols = concatU32(carryCols, colCol.toArray() as Uint32Array);
+      const values = concatF64(carryValues, rawValues);
+      if (rows.length === 0) continue;
+      // everything before the last row's first entry is complete
+      const lastRow = rows[rows.length - 1];
+      let cut = rows.length;
+      while (cut > 0 && rows[cut - 1] === lastRow) cut--;
+      carryRows = rows.slice(cut);
+      carryCols = cols.slice(cut);
+      carryValues = values.slice(cut);
+      if (cut > 0) yield toRowBlock(file, rows.subarray(0, cut), cols.subarray(0, cut), values.subarray(0, cut), firstRow, endRow);
+    }
+    if (carryRows.length > 0) yield toRowBlock(file, carryRows, carryCols, carryValues, firstRow, endRow);
+  } finally {
+    await handle.close();
+  }
+}
+
+function concatU32(a: Uint32Array, b: Uint32Array): Uint32Array {
+  if (a.length === 0) return b;
+  const out = new Uint32Array(a.length + b.length);
+  out.set(a);
+  out.set(b, a.length);
+  return out;
+}
+
+function concatF64(a: Float64Array, b: Float32Array | Float64Array): Float64Array {
+  const out = new Float64Array(a.length + b.length);
+  out.set(a);
+  out.set(b, a.length);
+  return out;
+}
+
+/** Complete rows (sorted by row) as a block that starts at their first row. */
+function toRowBlock(file: string, rows: Uint32Array, cols: Uint32Array, values: Float64Array, firstRow: number, endRow: number): RowBlock {
+  const start = rows[0];
+  const last = rows[rows.length - 1];
+  if (start < firstRow || last >= endRow) {
+    throw new KindredError(`${file}: row ${start < firstRow ? start : last} lies outside the shard's range [${firstRow}, ${endRow})`);
+  }
+  const indptr = new Uint32Array(last - start + 2);
+  for (let i = 0; i < rows.length; i++) indptr[rows[i] - start + 1]++;
+  for (let r = 0; r < last - start + 1; r++) indptr[r + 1] += indptr[r];
+  return { firstRow: start, indptr, cols: cols.slice(), values: values.slice() };
 }
