@@ -17,6 +17,7 @@ import { readVectors } from '../src/reduce/vectors-file.js';
 import type { Manifest } from '../src/store/manifest.js';
 import { readArrowTable } from '../src/store/shards.js';
 import { buildBrownPress } from './helpers/small-build.js';
+import { runCli } from './helpers/cli.js';
 
 const work = mkdtempSync(path.join(os.tmpdir(), 'kindred-table-'));
 afterAll(() => rmSync(work, { recursive: true, force: true }));
@@ -110,6 +111,13 @@ describe('vectors.arrow from a build', () => {
       for (let i = 0; i < v.terms.length; i++) s += v.data[i * 24 + j] ** 2;
       expect(Math.sqrt(s) / sv[j]).toBeCloseTo(1, 5);
     }
+  });
+
+  it('kindred inspect shows the vectors and the neighbour table', () => {
+    const r = runCli(['inspect', rowsBuild.dir]);
+    expect(r.status).toBe(0);
+    expect(r.stdout).toMatch(/^vectors {5}\d+ x 24, U·Σ\^1, σ₁ [\d.]+, [\d.]+% of the squared norm \(seed 1, 4 power iterations\)$/m);
+    expect(r.stdout).toMatch(/^neighbors {3}cosine on rows, k 8, 150 terms, 1200 rows \(score = 1 - distance\)$/m);
   });
 
   it('refuses more dimensions than the matrix has, naming the key', async () => {

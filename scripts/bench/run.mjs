@@ -37,6 +37,7 @@ function parseArgs(argv) {
     else if (a === '--reference-max-tokens') o.referenceMaxTokens = tokensOf(next());
     else throw new Error(`unknown option ${a} (see the header of scripts/bench/run.mjs)`);
   }
+  for (const c of o.corpora) if (c !== 'brown' && c !== 'synthetic') throw new Error(`unknown corpus ${c}: use brown, synthetic`);
   return o;
 }
 
@@ -171,6 +172,7 @@ function main() {
   const text = lines.join('\n');
   console.log(text);
   const stamp = new Date().toISOString().replace(/[:.]/g, '-');
+  mkdirSync(o.dir, { recursive: true });
   writeFileSync(path.join(o.dir, `results-${stamp}.md`), text + '\n');
   writeFileSync(path.join(o.dir, `results-${stamp}.json`), JSON.stringify({ command, machine: info, rows, results }, null, 2));
 }

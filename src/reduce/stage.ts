@@ -3,7 +3,7 @@
  * A function of (config, the weighted shards, the vocabulary), so the build decides where it runs and how it is keyed.
  */
 import path from 'node:path';
-import type { KindredConfig, VectorsConfig } from '../config/types.js';
+import type { VectorsConfig } from '../config/types.js';
 import { KindredError } from '../errors.js';
 import { silentProgress, type Progress } from '../progress.js';
 import { readShard } from '../store/shards.js';
@@ -146,9 +146,4 @@ export async function runVectorsStage(v: VectorsConfig, input: VectorsStageInput
     singularValues: Array.from(svd.singularValues),
     energyCaptured: energy,
   };
-}
-
-/** The cfg-level entry: the `vectors` section of a resolved config. */
-export function vectorsSettings(cfg: KindredConfig): VectorsConfig {
-  return cfg.vectors;
 }
