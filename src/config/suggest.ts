@@ -1,18 +1,4 @@
-/** Levenshtein edit distance (insertions, deletions, substitutions each cost 1), two-row dynamic programme. */
-export function editDistance(a: string, b: string): number {
-  let prev = new Uint32Array(b.length + 1);
-  let curr = new Uint32Array(b.length + 1);
-  for (let j = 0; j <= b.length; j++) prev[j] = j;
-  for (let i = 1; i <= a.length; i++) {
-    curr[0] = i;
-    for (let j = 1; j <= b.length; j++) {
-      const substitution = prev[j - 1] + (a.charCodeAt(i - 1) === b.charCodeAt(j - 1) ? 0 : 1);
-      curr[j] = Math.min(prev[j] + 1, curr[j - 1] + 1, substitution);
-    }
-    [prev, curr] = [curr, prev];
-  }
-  return prev[b.length];
-}
+import { editDistance } from '../edit-distance.js';
 
 /**
  * The candidate closest to `word` (case-insensitive), or undefined when none is close enough to be a

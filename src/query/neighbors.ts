@@ -5,7 +5,7 @@ import { readManifest, resolveBuildDir, type Manifest } from '../store/manifest.
 import { readShard } from '../store/shards.js';
 import { readVocabulary, type Vocabulary } from '../store/vocab-file.js';
 import type { RowBlock } from '../weight/types.js';
-import { closestTerms } from './edit-distance.js';
+import { closestTerms } from '../edit-distance.js';
 import { normalizeTerm } from '../tokenize/index.js';
 
 export interface Neighbor {

@@ -17,7 +17,7 @@ import { isKindredError, KindredError } from '../errors.js';
 import { getMeasure, isMeasureName, MEASURE_NAMES, type MeasureName } from '../measures/index.js';
 import { normalizeTerm } from '../tokenize/index.js';
 import { TOOL_VERSION } from '../version.js';
-import { closestTerms } from './edit-distance.js';
+import { closestTerms } from '../edit-distance.js';
 import { scoreOf } from './score.js';
 import { ServedBuild, type ServedSource } from './served-build.js';
 
