@@ -112,14 +112,5 @@ export function entries(dir: string): string[] {
   return existsSync(dir) && statSync(dir).isDirectory() ? readdirSync(dir).sort() : [];
 }
 
-/** A small deterministic PRNG (mulberry32, common practice, no source) so a failing kill schedule can be replayed. */
-export function prng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
+/** A small deterministic PRNG (mulberry32) so a failing kill schedule can be replayed. */
+export { mulberry32 as prng } from './helpers/random.js';

@@ -10,17 +10,8 @@ import path from 'node:path';
 import { createTokenizer } from '../src/tokenize/index.js';
 import { createByteTokenizer, scanBytes, NON_ASCII, ASCII_NON_SPACE } from '../src/tokenize/bytes.js';
 import type { TokenizeConfig } from '../src/config/types.js';
+import { mulberry32 as random } from './helpers/random.js';
 
-function random(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 // Pieces chosen to hit every branch of the rule: ASCII letters and digits, joiners in and out of place,
 // separators, letters and digits of other scripts, combining marks (NFC composes some), U+2019, characters
