@@ -25,6 +25,7 @@ import { runVectorsStage, type VectorsRecord } from './reduce/stage.js';
 import { VECTORS_FILE } from './reduce/vectors-file.js';
 import { runNeighborsStage, type NeighborsRecord } from './query/table-stage.js';
 import { NEIGHBORS_FILE } from './query/neighbors-file.js';
+import pLimit from 'p-limit';
 
 export interface BuildOptions {
   /** Path the build is published at (a symbolic link, switched only when the new build has fully succeeded). */
@@ -40,15 +41,23 @@ function stageKey(...parts: unknown[]): string {
   return sha256Text(canonicalJson(parts)).slice(0, 32);
 }
 
+const FINGERPRINT_CONCURRENCY = 4;
+
 async function fingerprintInputs(files: string[], progress: Progress): Promise<InputFingerprint[]> {
   const sizes = files.map((f) => statSync(f).size);
   progress.start('fingerprint', sizes.reduce((a, b) => a + b, 0), 'B');
-  const out: InputFingerprint[] = [];
   let done = 0;
-  for (const file of files) {
-    const st = statSync(file);
-    out.push({ path: file, bytes: st.size, modified: st.mtime.toISOString(), sha256: await sha256File(file, (n) => progress.update((done += n))) });
-  }
+  // a few files at once overlaps their reads; results stay in input order
+  const limit = pLimit(FINGERPRINT_CONCURRENCY);
+  const out: InputFingerprint[] = await Promise.all(
+    files.map((file) =>
+      limit(async () => {
+        const st = statSync(file);
+        const sha256 = await sha256File(file, (n) => progress.update((done += n)));
+        return { path: file, bytes: st.size, modified: st.mtime.toISOString(), sha256 };
+      }),
+    ),
+  );
   progress.end(`${files.length} input file(s), ${done} bytes hashed`);
   return out;
 }
