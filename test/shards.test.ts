@@ -1,6 +1,6 @@
 /** Shard files round-trip through several record batches (checked by reading back, with apache-arrow's reader). */
 import { describe, it, expect } from 'vitest';
-import { mkdtempSync } from 'node:fs';
+import { mkdtempSync, statSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import { ShardWriter, readShard, readShardBlocks, readArrowTable } from '../src/store/shards.js';
@@ -23,6 +23,16 @@ describe('ShardWriter', () => {
       expect(block.values[perRow * 7 + 5]).toBe(7 + 5 / 4);
     });
   }
+
+  it('hands each record batch to the file as it is written, not at close (memory stays at one batch)', async () => {
+    const file = path.join(mkdtempSync(path.join(os.tmpdir(), 'kindred-shard-')), 'part.arrow');
+    const w = new ShardWriter(file, 'float64');
+    // a synchronous loop, as in the k-way merge: nothing awaits between batches
+    for (let i = 0; i < 3 * (1 << 20); i++) w.append(i >>> 10, i & 1023, i);
+    expect(statSync(file).size).toBeGreaterThan(2 * (1 << 20) * 16);
+    await w.close();
+    expect(readShard(file, 0, 3 << 10).indptr[3 << 10]).toBe(3 * (1 << 20));
+  });
 
   it('streams blocks of complete rows that together equal the whole shard, rows spanning batches included', async () => {
     const file = path.join(mkdtempSync(path.join(os.tmpdir(), 'kindred-shard-')), 'part.arrow');

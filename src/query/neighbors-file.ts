@@ -6,7 +6,7 @@ import { Field, Float64, makeData, Schema, Uint32, Utf8, type Data } from 'apach
 import { KindredError } from '../errors.js';
 import type { MeasureName } from '../measures/index.js';
 import { readArrowTable } from '../store/shards.js';
-import { ArrowFileSink, utf8Data } from './arrow-sink.js';
+import { ArrowFileSink, utf8Data } from '../store/arrow-sink.js';
 import { scoreOf } from './score.js';
 import type { TableBlock } from './table.js';
 

@@ -2,7 +2,7 @@
 import { Field, FixedSizeList, Float32, makeData, Schema, Uint32, Utf8, type Data } from 'apache-arrow';
 import { KindredError } from '../errors.js';
 import { readArrowTable } from '../store/shards.js';
-import { ArrowFileSink, utf8Data } from '../query/arrow-sink.js';
+import { ArrowFileSink, utf8Data } from '../store/arrow-sink.js';
 
 export const VECTORS_FILE = 'vectors.arrow';
 

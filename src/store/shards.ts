@@ -1,10 +1,10 @@
-import { closeSync, openSync, writeSync, readFileSync, fsyncSync, promises as fsp } from 'node:fs';
+import { readFileSync, promises as fsp } from 'node:fs';
 import type { FileHandle } from 'node:fs/promises';
-import { RecordBatchFileWriter, RecordBatchReader, RecordBatch, Schema, Field, Struct, makeData, tableFromIPC, Float32, Float64, Uint32 } from 'apache-arrow';
+import { RecordBatchReader, Schema, Field, makeData, tableFromIPC, Float32, Float64, Uint32, type Data } from 'apache-arrow';
 import type { Table, AsyncRecordBatchFileReader, AsyncRecordBatchStreamReader } from 'apache-arrow';
 import { KindredError } from '../errors.js';
 import type { RowBlock } from '../weight/types.js';
-import { wrapWriteError } from './atomic.js';
+import { ArrowFileSink } from './arrow-sink.js';
 
 /** The file name of shard `index`: part-00000.arrow, part-00001.arrow … */
 export function partFileName(index: number): string {
@@ -21,39 +21,20 @@ const BATCH_ENTRIES = 1 << 20;
  * (`row: uint32, col: uint32, value: float32|float64`), one record batch per BATCH_ENTRIES.
  */
 export class ShardWriter {
-  private readonly fd: number;
-  private readonly writer = new RecordBatchFileWriter();
-  private readonly pump: Promise<void>;
+  private readonly sink: ArrowFileSink;
   private rows = new Uint32Array(BATCH_ENTRIES);
   private cols = new Uint32Array(BATCH_ENTRIES);
   private values: Float64Array = new Float64Array(BATCH_ENTRIES);
   private fill = 0;
-  private wroteAny = false;
-  private pumpError: unknown = null;
-  private readonly schema: Schema;
   entries = 0;
 
   constructor(readonly file: string, private readonly valueType: ShardValueType) {
-    let fd: number;
-    try {
-      fd = openSync(file, 'w');
-    } catch (e) {
-      throw wrapWriteError(e, file);
-    }
-    this.fd = fd;
-    this.schema = new Schema([
+    const schema = new Schema([
       new Field('row', new Uint32(), false),
       new Field('col', new Uint32(), false),
       new Field('value', valueType === 'float32' ? new Float32() : new Float64(), false),
     ]);
-    // The writer queues bytes; drain them synchronously so memory stays at one batch.
-    this.pump = (async () => {
-      try {
-        for await (const chunk of this.writer) writeSync(fd, chunk);
-      } catch (e) {
-        this.pumpError = wrapWriteError(e, file);
-      }
-    })();
+    this.sink = new ArrowFileSink(file, schema);
   }
 
   append(row: number, col: number, value: number): void {
@@ -75,33 +56,25 @@ export class ShardWriter {
   }
 
   private flushBatch(): void {
-    if (this.fill === 0 && this.wroteAny) return;
     const n = this.fill;
-    const values = this.valueType === 'float32' ? Float32Array.from(this.values.subarray(0, n)) : this.values.slice(0, n);
-    const children = [
-      makeData({ type: this.schema.fields[0].type, length: n, nullCount: 0, data: this.rows.slice(0, n) }),
-      makeData({ type: this.schema.fields[1].type, length: n, nullCount: 0, data: this.cols.slice(0, n) }),
-      makeData({ type: this.schema.fields[2].type, length: n, nullCount: 0, data: values }),
-    ];
-    const batch = new RecordBatch(this.schema, makeData({ type: new Struct(this.schema.fields), length: n, nullCount: 0, children }));
-    // one schema object for every batch: the writer starts a new stream when it sees a different one
-    this.writer.write(batch);
+    if (n === 0) return;
+    this.sink.write(this.children(n), n);
     this.fill = 0;
-    this.wroteAny = true;
   }
 
-  /** Writes the footer, waits for the bytes to reach the file, syncs and closes it. */
+  private children(n: number): Data[] {
+    const values = this.valueType === 'float32' ? Float32Array.from(this.values.subarray(0, n)) : this.values.slice(0, n);
+    return [
+      makeData({ type: new Uint32(), length: n, nullCount: 0, data: this.rows.slice(0, n) }),
+      makeData({ type: new Uint32(), length: n, nullCount: 0, data: this.cols.slice(0, n) }),
+      makeData({ type: this.valueType === 'float32' ? new Float32() : new Float64(), length: n, nullCount: 0, data: values }),
+    ];
+  }
+
+  /** Writes the footer, syncs and closes the file. */
   async close(): Promise<void> {
     this.flushBatch();
-    this.writer.finish();
-    await this.pump;
-    try {
-      if (this.pumpError) throw this.pumpError;
-      fsyncSync(this.fd);
-    } finally {
-      closeSync(this.fd);
-    }
-    if (this.pumpError) throw this.pumpError;
+    await this.sink.close(() => this.children(0));
   }
 }
 

@@ -4,7 +4,7 @@
  */
 import { closeSync, fsyncSync, openSync, writeSync } from 'node:fs';
 import { makeData, RecordBatch, RecordBatchFileWriter, Struct, Utf8, type Data, type Schema } from 'apache-arrow';
-import { wrapWriteError } from '../store/atomic.js';
+import { wrapWriteError } from './atomic.js';
 
 const encoder = new TextEncoder();
 
@@ -18,11 +18,18 @@ export function utf8Data(strings: readonly string[]): Data<Utf8> {
   return makeData({ type: new Utf8(), length: strings.length, nullCount: 0, valueOffsets: offsets, data: bytes });
 }
 
+/**
+ * apache-arrow's writer queues the bytes of each batch until a reader pulls them; nothing pulls while a
+ * synchronous loop (a k-way merge) writes, so the queue is emptied into the file by hand after every batch.
+ * `_sink._values` is that queue in apache-arrow 21.2.0, which package.json pins exactly.
+ */
+interface QueuedBytes {
+  _sink: { _values: Uint8Array[] };
+}
+
 export class ArrowFileSink {
   private readonly fd: number;
   private readonly writer = new RecordBatchFileWriter();
-  private readonly pump: Promise<void>;
-  private pumpError: unknown = null;
   private wroteAny = false;
   rows = 0;
 
@@ -32,34 +39,37 @@ export class ArrowFileSink {
     } catch (e) {
       throw wrapWriteError(e, file);
     }
-    const fd = this.fd;
-    this.pump = (async () => {
-      try {
-        for await (const chunk of this.writer) writeSync(fd, chunk);
-      } catch (e) {
-        this.pumpError = wrapWriteError(e, file);
-      }
-    })();
+  }
+
+  /** Moves every queued chunk into the file: memory stays at one batch. */
+  private drain(): void {
+    const queued = (this.writer as unknown as QueuedBytes)._sink._values;
+    try {
+      for (const chunk of queued.splice(0)) writeSync(this.fd, chunk);
+    } catch (e) {
+      throw wrapWriteError(e, this.file);
+    }
   }
 
   /** Writes one batch; `children` follow the schema's fields, each of `length` rows. */
   write(children: Data[], length: number): void {
-    if (this.pumpError) throw this.pumpError;
     const batch = new RecordBatch(this.schema, makeData({ type: new Struct(this.schema.fields), length, nullCount: 0, children }));
     // one schema object for every batch, so the writer keeps a single stream
     this.writer.write(batch);
+    this.drain();
     this.rows += length;
     this.wroteAny = true;
   }
 
   /** Writes the footer (an empty batch first when nothing was written, so the file has the schema), syncs, closes. */
   async close(emptyChildren: () => Data[]): Promise<void> {
-    if (!this.wroteAny) this.write(emptyChildren(), 0);
-    this.writer.finish();
-    await this.pump;
     try {
-      if (this.pumpError) throw this.pumpError;
+      if (!this.wroteAny) this.write(emptyChildren(), 0);
+      this.writer.finish();
+      this.drain();
       fsyncSync(this.fd);
+    } catch (e) {
+      throw wrapWriteError(e, this.file);
     } finally {
       closeSync(this.fd);
     }
