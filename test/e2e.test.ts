@@ -100,6 +100,18 @@ describe('kindred build / neighbors / inspect', () => {
   });
 });
 
+describe('inspect reports what the error policy skipped', () => {
+  it('counts skipped bad records and binary files', () => {
+    mkdirSync(path.join(work, 'skips'));
+    writeFileSync(path.join(work, 'skips', 'a.jsonl'), '{"text": "good words here and there"}\n{"text": broken\n{"text": "more good words here"}\n');
+    writeFileSync(path.join(work, 'skips', 'b.jsonl'), Buffer.from([0x7b, 0x00, 0x01, 0x02, 0x0a]));
+    const cfg = writeConfig('skips.json', { input: { paths: ['skips/*.jsonl'], onBadRecord: 'skip' }, vocabulary: { minCount: 1 } });
+    const out = path.join(work, 'out', 'skips');
+    expect(runCli(['build', cfg, '--out', out]).status).toBe(0);
+    expect(runCli(['inspect', out]).stdout).toMatch(/1 bad records skipped, 1 binary files skipped/);
+  });
+});
+
 describe('bad input ends in one line and no partial output', () => {
   function expectCleanFailure(args: string[], message: RegExp, out: string): void {
     const r = runCli(args);

@@ -16,8 +16,9 @@ export function describeBuild(dir: string, m: Manifest): string {
   lines.push(`config      ${m.configFile} (hash ${m.configHash.slice(0, 16)})`);
   const inBytes = m.inputs.reduce((s, f) => s + f.bytes, 0);
   lines.push(`inputs      ${m.inputs.length} file(s), ${bytes(inBytes)}, ${m.ingest.documents} documents`);
-  if (m.ingest.invalidUtf8Replaced || m.ingest.badRecordsSkipped) {
-    lines.push(`            ${m.ingest.invalidUtf8Replaced} invalid UTF-8 sequences replaced, ${m.ingest.badRecordsSkipped} bad records skipped`);
+  const binarySkipped = m.ingest.binaryFilesSkipped ?? 0;
+  if (m.ingest.invalidUtf8Replaced || m.ingest.badRecordsSkipped || binarySkipped) {
+    lines.push(`            ${m.ingest.invalidUtf8Replaced} invalid UTF-8 sequences replaced, ${m.ingest.badRecordsSkipped} bad records skipped, ${binarySkipped} binary files skipped`);
   }
   const ctx = c.contexts.type === 'document'
     ? 'per-document contexts'
