@@ -6,12 +6,12 @@ import { resolveInputs } from './ingest/index.js';
 import { emptyIngestStats, type IngestStats } from './ingest/types.js';
 import { createTokenizer } from './tokenize/index.js';
 import { pairTableCapacity } from './count/cooccur.js';
-import { countTerms, countPairs, type CountExec } from './count/passes.js';
+import { countTerms, countPairs, type CountExec, type TermsResult } from './count/passes.js';
 import { resolveWorkers } from './exec/pool.js';
 import { partitionRows } from './count/partition.js';
 import { weightShards } from './weight/stage.js';
 import { partFileName } from './store/shards.js';
-import { readVocabulary, writeVocabulary } from './store/vocab-file.js';
+import { readVocabulary, writeVocabulary, type Vocabulary } from './store/vocab-file.js';
 import { describeWriteFailure, wrapWriteError } from './store/atomic.js';
 import { sha256File, sha256Text } from './store/checksum.js';
 import { acquireBuildLock } from './store/lock.js';
@@ -129,6 +129,12 @@ function secondsSince(t0: number): number {
 
 const sum = (xs: number[]): number => xs.reduce((a, b) => a + b, 0);
 
+/** The vocabulary pass's result when it ran in this build with token streams (and gave this vocabulary). */
+function withStreams(fresh: TermsResult | null, vocab: Vocabulary): TermsResult | Vocabulary {
+  if (fresh === null || fresh.streams === null || fresh.vocab.terms.length !== vocab.terms.length) return vocab;
+  return { ...fresh, vocab };
+}
+
 interface VocabularySummary {
   documents: number;
   tokens: number;
@@ -211,13 +217,17 @@ async function buildAndPublish(
   const countKey = stageKey(vocabKey, cfg.contexts, cfg.output.parts);
   const weightKey = stageKey(countKey, cfg.weighting, cfg.normalize, cfg.output.valueType);
 
+  // A vocabulary pass run now also writes token streams (temporary, in the work area's tmp/), so the count
+  // stage reads term ids instead of tokenizing the input again; a reused vocabulary leaves none.
+  let fresh: TermsResult | null = null;
   const vocabStage = await stages.run<VocabularySummary>({
     name: 'vocabulary',
     key: vocabKey,
     publish: ['vocab.arrow'],
     run: async (dir) => {
       const stats = emptyIngestStats();
-      const { vocab, counter } = await countTerms(files, cfg, exec, stats, progress, totalBytes);
+      fresh = await countTerms(files, cfg, exec, stats, progress, totalBytes, await area.temporaryFolder('tokens'));
+      const { vocab, counter } = fresh;
       if (counter.tokens === 0) {
         throw new KindredError(`the corpus is empty: ${files.length} input file(s) gave ${stats.documents} document(s) and no token (check input.format and input.textField)`);
       }
@@ -241,7 +251,7 @@ async function buildAndPublish(
     run: async (dir) => {
       await fsp.mkdir(path.join(dir, 'counts'));
       const capacity = opts.pairTableCapacity ?? pairTableCapacity(cfg.memoryMiB);
-      const r = await countPairs(files, cfg, exec, vocab, nCols, ranges, dir, capacity, progress, totalBytes);
+      const r = await countPairs(files, cfg, exec, withStreams(fresh, vocab), nCols, ranges, dir, capacity, progress, totalBytes);
       await fsp.rm(path.join(dir, 'spill'), { recursive: true, force: true });
       // the weight stage needs the marginals; keeping them here lets it run (or rerun) without recounting
       await writeMarginals(path.join(dir, MARGINALS_FILE), r.marginals);
@@ -260,7 +270,7 @@ async function buildAndPublish(
       // weightShards reads <dir>/counts: lend it the count stage's folder for the duration
       const lent = path.join(dir, 'counts');
       await fsp.symlink(path.join(countStage.dir, 'counts'), lent);
-      const entries = await weightShards(cfg, ranges, marginals, dir, progress);
+      const entries = await weightShards(cfg, ranges, marginals, dir, progress, exec.workers);
       await fsp.unlink(lent);
       return { entries };
     },

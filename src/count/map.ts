@@ -5,6 +5,7 @@
  * - pairs: co-occurrence weights of splits keyed by final term ids, in a bounded accumulator that spills.
  * A mapper keeps one accumulator across all the tasks it runs and hands it over once, at finish.
  */
+import { statSync } from 'node:fs';
 import path from 'node:path';
 import type { ContextsConfig, InputConfig, TokenizeConfig } from '../config/types.js';
 import { readSplit, type DocumentSink, type InputSplit } from '../ingest/split.js';
@@ -13,6 +14,7 @@ import { createByteTokenizer, type ByteTokenizer, type TokenSink } from '../toke
 import { PairAccumulator, type AccumulatorHandover } from './pair-accumulator.js';
 import { TermTable, type TermBytes } from './term-table.js';
 import { windowWeights } from './cooccur.js';
+import { DOCUMENT_END, TokenStreamWriter, readTokenStream, type TokenStreamRef } from './token-stream.js';
 
 export interface ReadSetup {
   input: InputConfig;
@@ -21,9 +23,18 @@ export interface ReadSetup {
   baseDir: string;
 }
 
+/** The vocabulary pass's setup: reading, and where to write token streams (null: none). */
+export interface VocabularySetup extends ReadSetup {
+  streamDir: string | null;
+  /** Tells this mapper's stream files apart from the others'. */
+  mapper: number;
+}
+
 /** What one split's reading found; summed over splits in split order. */
 export interface SplitResult {
   stats: IngestStats;
+  /** The split's token stream, when the vocabulary pass wrote one. */
+  stream?: TokenStreamRef;
 }
 
 export interface VocabularyPartial {
@@ -42,8 +53,11 @@ export class VocabularyMapper {
   private doc = -1;
   tokens = 0;
   private readonly sink: DocumentSink;
+  /** The token stream of the split being read, or null. */
+  private stream: TokenStreamWriter | null = null;
+  private streams = 0;
 
-  private constructor(private readonly setup: ReadSetup, private readonly tokenizer: ByteTokenizer) {
+  private constructor(private readonly setup: VocabularySetup, private readonly tokenizer: ByteTokenizer) {
     const add: TokenSink = (bytes, start, end) => {
       const id = this.table.intern(bytes, start, end);
       if (id === this.counts.length) this.grow();
@@ -53,20 +67,23 @@ export class VocabularyMapper {
         this.docFreqs[id]++;
       }
       this.tokens++;
+      if (this.stream !== null) this.stream.push(id);
     };
     this.sink = {
       bytes: (b, s, e) => {
         this.doc++;
         tokenizer.tokenizeAscii(b, s, e, add);
+        if (this.stream !== null) this.stream.push(DOCUMENT_END);
       },
       text: (t) => {
         this.doc++;
         tokenizer.tokenizeText(t, add);
+        if (this.stream !== null) this.stream.push(DOCUMENT_END);
       },
     };
   }
 
-  static async create(setup: ReadSetup): Promise<VocabularyMapper> {
+  static async create(setup: VocabularySetup): Promise<VocabularyMapper> {
     return new VocabularyMapper(setup, await createByteTokenizer(setup.tokenize, setup.baseDir));
   }
 
@@ -85,8 +102,20 @@ export class VocabularyMapper {
 
   async run(split: InputSplit, onProgress: (bytes: number) => void): Promise<SplitResult> {
     const stats = emptyIngestStats();
-    await readSplit(split, this.setup.input, stats, this.sink, onProgress);
-    return { stats };
+    const { streamDir, mapper } = this.setup;
+    if (streamDir === null) {
+      await readSplit(split, this.setup.input, stats, this.sink, onProgress);
+      return { stats };
+    }
+    const file = path.join(streamDir, `m${String(mapper).padStart(3, '0')}-${String(this.streams++).padStart(6, '0')}.ids`);
+    this.stream = new TokenStreamWriter(file);
+    try {
+      await readSplit(split, this.setup.input, stats, this.sink, onProgress);
+      this.stream.close();
+    } finally {
+      this.stream = null;
+    }
+    return { stats, stream: { file, mapper } };
   }
 
   finish(): VocabularyPartial {
@@ -96,8 +125,13 @@ export class VocabularyMapper {
 }
 
 export interface PairsSetup extends ReadSetup {
-  /** The final vocabulary's terms in id order. */
+  /** The final vocabulary's terms in id order (for splits read from the input). */
   vocabulary: TermBytes;
+  /**
+   * For token streams: streamIds[m][i] is the final id (or -1) of term i of vocabulary mapper m; empty when the
+   * tasks read the input.
+   */
+  streamIds: Int32Array[];
   contexts: ContextsConfig;
   nCols: number;
   denseSize: number;
@@ -108,10 +142,14 @@ export interface PairsSetup extends ReadSetup {
   mapper: number;
 }
 
-/** A split of pass 2 and the corpus-wide index of its first document (for document contexts). */
+/**
+ * A split of pass 2 and the corpus-wide index of its first document (for document contexts); with `stream`,
+ * the split's tokens are read from the token stream the vocabulary pass wrote instead of from the input.
+ */
 export interface PairsTask {
   split: InputSplit;
   firstDocument: number;
+  stream?: TokenStreamRef;
 }
 
 export type PairsPartial = AccumulatorHandover & {
@@ -120,16 +158,18 @@ export type PairsPartial = AccumulatorHandover & {
 
 /** Co-occurrence weights of the documents of its splits. */
 export class PairsMapper {
-  private readonly ids: TermTable;
+  /** The final vocabulary by bytes, built on the first task that reads the input (token streams need none). */
+  private ids: TermTable | null = null;
   private readonly acc: PairAccumulator;
   private buf = new Int32Array(1 << 14);
   private len = 0;
   private doc = 0;
   private readonly sink: DocumentSink;
   private readonly weights: Float64Array;
+  /** Ends the current document: adds its pairs and moves to the next document. */
+  private readonly endDocument: () => void;
 
   private constructor(private readonly setup: PairsSetup, tokenizer: ByteTokenizer) {
-    this.ids = TermTable.fromTermBytes(setup.vocabulary);
     const ctx = setup.contexts;
     this.weights = windowWeights(ctx).weights;
     let runs = 0;
@@ -138,12 +178,13 @@ export class PairsMapper {
       () => path.join(setup.spillDir, `m${String(setup.mapper).padStart(3, '0')}-run-${String(runs++).padStart(5, '0')}.bin`),
     );
     const push: TokenSink = (bytes, start, end) => {
+      const ids = this.ids ?? (this.ids = TermTable.fromTermBytes(setup.vocabulary));
       if (this.len === this.buf.length) {
         const bigger = new Int32Array(this.buf.length * 2);
         bigger.set(this.buf);
         this.buf = bigger;
       }
-      this.buf[this.len++] = this.ids.find(bytes, start, end);
+      this.buf[this.len++] = ids.find(bytes, start, end);
     };
     const done = (): void => {
       if (ctx.type === 'document') this.acc.addDocument(this.buf, this.len, this.doc);
@@ -151,6 +192,7 @@ export class PairsMapper {
       this.doc++;
       this.len = 0;
     };
+    this.endDocument = done;
     this.sink = {
       bytes: (b, s, e) => {
         tokenizer.tokenizeAscii(b, s, e, push);
@@ -170,8 +212,46 @@ export class PairsMapper {
   async run(task: PairsTask, onProgress: (bytes: number) => void): Promise<SplitResult> {
     this.doc = task.firstDocument;
     const stats = emptyIngestStats();
+    if (task.stream !== undefined) {
+      this.runStream(task.stream, task.split.end - task.split.start, onProgress);
+      return { stats };
+    }
     await readSplit(task.split, this.setup.input, stats, this.sink, onProgress);
     return { stats };
+  }
+
+  /** The split's documents from its token stream, ids translated to the final vocabulary's. */
+  private runStream(stream: TokenStreamRef, splitBytes: number, onProgress: (bytes: number) => void): void {
+    const toFinal = this.setup.streamIds[stream.mapper];
+    const size = Math.max(1, statSync(stream.file).size);
+    let reported = 0;
+    let read = 0;
+    readTokenStream(stream.file, (ids, n, bytes) => {
+      let buf = this.buf;
+      let len = this.len;
+      for (let i = 0; i < n; i++) {
+        const id = ids[i];
+        if (id === DOCUMENT_END) {
+          this.len = len;
+          this.endDocument();
+          len = 0;
+          continue;
+        }
+        if (len === buf.length) {
+          const bigger = new Int32Array(buf.length * 2);
+          bigger.set(buf);
+          this.buf = buf = bigger;
+        }
+        buf[len++] = toFinal[id];
+      }
+      this.len = len;
+      // progress in input bytes, in proportion to the stream read so far
+      read += bytes;
+      const now = Math.floor((splitBytes * read) / size);
+      onProgress(now - reported);
+      reported = now;
+    });
+    if (reported < splitBytes) onProgress(splitBytes - reported);
   }
 
   finish(): PairsPartial {

@@ -9,9 +9,14 @@ import type { Marginals } from '../weight/types.js';
 import { ShardWriter, partFileName } from '../store/shards.js';
 import type { Vocabulary } from '../store/vocab-file.js';
 import { planAccumulators, windowWeights } from './cooccur.js';
-import { RowsSource, DenseSource, RunReader, mergeSources, type SortedSource } from './runs.js';
+import {
+  RowsSource, DenseSource, RunReader, mergeSources, type SortedSource,
+  RowsRowSource, DenseRowSource, SortedRowSource, mergeRowWise, MAX_ROW_WISE_COLUMNS, type RowWiseSource,
+} from './runs.js';
 import { TermTable, compareBytes, type TermBytes } from './term-table.js';
 import type { RowRange } from './partition.js';
+import type { TokenStreamRef } from './token-stream.js';
+import type { PairsTask } from './map.js';
 
 /** How the counting passes run: where relative config paths start, and how many worker threads to use. */
 export interface CountExec {
@@ -29,6 +34,8 @@ export interface TermsResult {
   /** Documents of each split, for corpus-wide document numbers in pass 2. */
   splitDocuments: number[];
   threads: number;
+  /** The token streams pass 1 wrote (one per split) and, per mapper, its term ids' final ids; null if none. */
+  streams: { refs: TokenStreamRef[]; finalIds: Int32Array[] } | null;
 }
 
 /** Bytes per split: a few splits per worker so threads stay busy, none too small to be worth a task. */
@@ -45,14 +52,18 @@ function addStats(into: IngestStats, from: IngestStats): void {
   into.binaryFilesSkipped += from.binaryFilesSkipped;
 }
 
-/** Pass 1: term counts and document frequencies over the whole corpus, on worker threads. */
+/**
+ * Pass 1: term counts and document frequencies over the whole corpus, on worker threads. With a streamDir,
+ * each split's tokens are also written there as token streams, which pass 2 then reads instead of the input.
+ */
 export async function countTerms(
   files: string[], cfg: KindredConfig, exec: CountExec, stats: IngestStats, progress: Progress, totalBytes: number,
+  streamDir: string | null = null,
 ): Promise<TermsResult> {
   const splits = planSplits(files, cfg.input, splitBytes(totalBytes, exec.workers));
   progress.start('vocabulary', totalBytes, 'B');
   let done = 0;
-  const run = await runMap('vocabulary', () => ({ input: cfg.input, tokenize: cfg.tokenize, baseDir: exec.baseDir }), splits, exec.workers, (n) => progress.update((done += n)));
+  const run = await runMap('vocabulary', (mapper) => ({ input: cfg.input, tokenize: cfg.tokenize, baseDir: exec.baseDir, streamDir, mapper }), splits, exec.workers, (n) => progress.update((done += n)));
   for (const r of run.results) addStats(stats, r.stats);
 
   // Merge the partial counts by term bytes; the result does not depend on which thread read which split.
@@ -60,11 +71,13 @@ export async function countTerms(
   let counts = new Float64Array(table.starts.length);
   let docFreqs = new Uint32Array(table.starts.length);
   let tokens = 0;
-  for (const p of run.partials) {
+  const mergedIds = run.partials.map((p) => new Int32Array(p.counts.length));
+  for (const [m, p] of run.partials.entries()) {
     tokens += p.tokens;
     const { arena, offsets } = p.terms;
     for (let i = 0; i < p.counts.length; i++) {
       const id = table.intern(arena, offsets[i], offsets[i + 1]);
+      mergedIds[m][i] = id;
       if (id >= counts.length) {
         const c = new Float64Array(counts.length * 2);
         c.set(counts);
@@ -94,6 +107,14 @@ export async function countTerms(
     vocab.counts[i] = counts[id];
     vocab.docFreqs[i] = docFreqs[id];
   }
+  let streams: TermsResult['streams'] = null;
+  if (streamDir !== null) {
+    // each mapper's term ids to the final ids (-1: not in the vocabulary), through the merged table's ids
+    const finalOfMerged = new Int32Array(table.size).fill(-1);
+    for (let i = 0; i < size; i++) finalOfMerged[kept[i]] = i;
+    const finalIds = mergedIds.map((ids) => ids.map((id) => finalOfMerged[id]));
+    streams = { refs: run.results.map((r) => r.stream!), finalIds };
+  }
   progress.end(`${stats.documents} documents, ${tokens} tokens, ${table.size} distinct terms, ${size} kept (${run.threads} thread${run.threads > 1 ? 's' : ''})`);
   return {
     vocab,
@@ -101,6 +122,7 @@ export async function countTerms(
     splits,
     splitDocuments: run.results.map((r) => r.stats.documents),
     threads: run.threads,
+    streams,
   };
 }
 
@@ -146,31 +168,28 @@ export async function countPairs(
   const mappers = Math.max(1, Math.min(exec.workers, splits.length));
   const plan = planAccumulators(cfg.memoryMiB, mappers, cfg.contexts, nRows, capacity);
   let firstDocument = 0;
+  const streams = 'vocab' in terms ? terms.streams : null;
   const tasks = splits.map((split, i) => {
-    const task = { split, firstDocument };
+    const task: PairsTask = { split, firstDocument, ...(streams !== null ? { stream: streams.refs[i] } : {}) };
     firstDocument += splitDocuments[i];
     return task;
   });
   progress.start('count', totalBytes, 'B');
   let done = 0;
   const run = await runMap('pairs', (mapper) => ({
-    input: cfg.input, tokenize: cfg.tokenize, baseDir: exec.baseDir, vocabulary: encodeTerms(vocab.terms), contexts: cfg.contexts,
+    input: cfg.input, tokenize: cfg.tokenize, baseDir: exec.baseDir, vocabulary: encodeTerms(vocab.terms), streamIds: streams?.finalIds ?? [], contexts: cfg.contexts,
     nCols, denseSize: plan.denseSize, capacity: plan.capacity, spillDir, mapper,
   }), tasks, exec.workers, (n) => progress.update((done += n)));
 
   // Merge: the dense blocks summed cell by cell, every mapper's sorted hash entries, every spilled run.
-  const sources: SortedSource[] = [];
   const runs: string[] = [];
   let pairs = 0;
   for (const p of run.partials) {
     pairs += p.pairs;
     runs.push(...p.runs);
-    sources.push(new RowsSource(p.rowStart, p.cols, p.values));
   }
   const first = run.partials[0];
-  if (first.denseSize > 0) sources.push(new DenseSource(run.partials.map((p) => p.dense), first.denseSize, first.triangle));
   const bufferRecords = Math.max(4096, Math.floor(MERGE_BUFFER_BYTES / 16 / Math.max(1, runs.length)));
-  for (const f of runs) sources.push(new RunReader(f, bufferRecords));
 
   const rowSums = new Float64Array(nRows);
   const colSums = new Float64Array(nCols);
@@ -179,15 +198,40 @@ export async function countPairs(
   const { scale } = windowWeights(cfg.contexts);
   const writers = ranges.map((_, i) => new ShardWriter(path.join(workDir, 'counts', partFileName(i)), 'float64'));
   let part = 0;
-  mergeSources(sources, nCols, (r, c, scaled) => {
-    rowSums[r] += scaled;
-    colSums[c] += scaled;
-    rowNnz[r]++;
-    total += scaled;
-    while (r >= ranges[part].endRow) part++;
-    writers[part].append(r, c, scaled / scale);
-  });
+  if (nCols <= MAX_ROW_WISE_COLUMNS) {
+    // row by row: each row's entries summed in a dense scratch row, then written in column order
+    const sources: RowWiseSource[] = run.partials.map((p) => new RowsRowSource(p.rowStart, p.cols, p.values));
+    if (first.denseSize > 0) sources.push(new DenseRowSource(run.partials.map((p) => p.dense), first.denseSize, first.triangle));
+    for (const f of runs) sources.push(new SortedRowSource(new RunReader(f, bufferRecords)));
+    mergeRowWise(sources, nRows, nCols, (r, cols, sums, n) => {
+      let rowSum = 0;
+      for (let i = 0; i < n; i++) {
+        const c = cols[i];
+        const v = sums[c];
+        rowSum += v;
+        colSums[c] += v;
+      }
+      rowSums[r] += rowSum;
+      rowNnz[r] = n;
+      total += rowSum;
+      while (r >= ranges[part].endRow) part++;
+      writers[part].appendRow(r, cols, sums, n, scale);
+    });
+  } else {
+    const sources: SortedSource[] = run.partials.map((p) => new RowsSource(p.rowStart, p.cols, p.values));
+    if (first.denseSize > 0) sources.push(new DenseSource(run.partials.map((p) => p.dense), first.denseSize, first.triangle));
+    for (const f of runs) sources.push(new RunReader(f, bufferRecords));
+    mergeSources(sources, nCols, (r, c, scaled) => {
+      rowSums[r] += scaled;
+      colSums[c] += scaled;
+      rowNnz[r]++;
+      total += scaled;
+      while (r >= ranges[part].endRow) part++;
+      writers[part].append(r, c, scaled / scale);
+    });
+  }
   for (const f of runs) rmSync(f, { force: true });
+  if (streams !== null) for (const r of streams.refs) rmSync(r.file, { force: true });
   for (const w of writers) await w.close();
   for (let r = 0; r < nRows; r++) rowSums[r] /= scale;
   for (let c = 0; c < nCols; c++) colSums[c] /= scale;

@@ -1,5 +1,5 @@
-import { openSync, writeSync, readSync, closeSync } from 'node:fs';
-import { wrapWriteError } from '../store/atomic.js';
+import { openSync, readSync, closeSync } from 'node:fs';
+import { wrapWriteError, writeBytesOrThrow } from '../store/atomic.js';
 
 /** A spilled run: sorted (row u32, col u32, value f64) records, 16 bytes each, little-endian. */
 const RECORD = 16;
@@ -29,11 +29,7 @@ export class RunWriter {
   }
 
   private flush(): void {
-    try {
-      writeSync(this.fd, this.buf, 0, this.fill * RECORD);
-    } catch (e) {
-      throw wrapWriteError(e, this.file);
-    }
+    writeBytesOrThrow(this.fd, this.buf, this.fill * RECORD, this.file);
     this.fill = 0;
   }
 
@@ -229,4 +225,108 @@ export function mergeSources(sources: SortedSource[], nCols: number, emit: (row:
 /** k-way merge of sorted run files (see mergeSources). */
 export function mergeRuns(files: string[], nCols: number, emit: (row: number, col: number, value: number) => void): void {
   mergeSources(files.map((f) => new RunReader(f)), nCols, emit);
+}
+
+/** Sums one row's entries of a source into a row accumulator. */
+export interface RowWiseSource {
+  /** Adds the entries of row r (rows are asked for in ascending order, each once). */
+  addRow(r: number, acc: RowAccumulator): void;
+}
+
+/**
+ * One row's sums over all columns: a dense scratch array of column sums and the list of columns touched.
+ * Entries are positive (counts), so a zero sum means an untouched column.
+ */
+export class RowAccumulator {
+  readonly sums: Float64Array;
+  cols: Uint32Array;
+  n = 0;
+
+  constructor(nCols: number) {
+    this.sums = new Float64Array(nCols);
+    this.cols = new Uint32Array(1024);
+  }
+
+  add(col: number, value: number): void {
+    if (this.sums[col] === 0) {
+      if (this.n === this.cols.length) {
+        const bigger = new Uint32Array(this.cols.length * 2);
+        bigger.set(this.cols);
+        this.cols = bigger;
+      }
+      this.cols[this.n++] = col;
+    }
+    this.sums[col] += value;
+  }
+}
+
+/** Compressed sparse rows in memory as a row-wise source. */
+export class RowsRowSource implements RowWiseSource {
+  constructor(private readonly rowStart: Float64Array, private readonly cols: Uint32Array, private readonly values: Float64Array) {}
+
+  addRow(r: number, acc: RowAccumulator): void {
+    const { cols, values } = this;
+    const end = this.rowStart[r + 1];
+    for (let p = this.rowStart[r]; p < end; p++) acc.add(cols[p], values[p]);
+  }
+}
+
+/** Dense blocks (summed cell by cell) as a row-wise source; triangles as in DenseSource. */
+export class DenseRowSource implements RowWiseSource {
+  constructor(private readonly blocks: Uint32Array[], private readonly D: number, private readonly triangle: boolean) {}
+
+  addRow(r: number, acc: RowAccumulator): void {
+    const { D, triangle, blocks } = this;
+    if (r >= D) return;
+    for (const b of blocks) {
+      if (!triangle) {
+        const base = r * D;
+        for (let c = 0; c < D; c++) if (b[base + c] !== 0) acc.add(c, b[base + c]);
+        continue;
+      }
+      // row r of the symmetric block: cells (r, c) for c ≤ r lie in row r of the triangle, for c > r in column r
+      const base = (r * (r + 1)) >>> 1;
+      for (let c = 0; c < r; c++) if (b[base + c] !== 0) acc.add(c, b[base + c]);
+      if (b[base + r] !== 0) acc.add(r, 2 * b[base + r]); // a pair of one term with itself was seen from both ends
+      for (let c = r + 1; c < D; c++) {
+        const v = b[((c * (c + 1)) >>> 1) + r];
+        if (v !== 0) acc.add(c, v);
+      }
+    }
+  }
+}
+
+/** A sorted source (a spilled run) as a row-wise source. */
+export class SortedRowSource implements RowWiseSource {
+  constructor(private readonly source: SortedSource) {}
+
+  addRow(r: number, acc: RowAccumulator): void {
+    const s = this.source;
+    while (!s.done && s.row === r) {
+      acc.add(s.col, s.value);
+      s.advance();
+    }
+  }
+}
+
+/** Widest matrix merged row by row (a dense scratch row of 8 bytes a column); wider ones use mergeSources. */
+export const MAX_ROW_WISE_COLUMNS = 1 << 24;
+
+/**
+ * Merges row-wise sources row by row, summing equal (row, col) entries: each row's entries are summed in a dense
+ * scratch row, its columns sorted, and handed to emitRow(row, cols, sums, n), where sums is indexed by column
+ * (valid during the call only). Faster than a heap over entries when rows are many entries long.
+ */
+export function mergeRowWise(sources: RowWiseSource[], nRows: number, nCols: number, emitRow: (row: number, cols: Uint32Array, sums: Float64Array, n: number) => void): void {
+  const acc = new RowAccumulator(nCols);
+  for (let r = 0; r < nRows; r++) {
+    for (const s of sources) s.addRow(r, acc);
+    const n = acc.n;
+    if (n === 0) continue;
+    const cols = acc.cols.subarray(0, n);
+    cols.sort();
+    emitRow(r, cols, acc.sums, n);
+    for (let i = 0; i < n; i++) acc.sums[cols[i]] = 0;
+    acc.n = 0;
+  }
 }

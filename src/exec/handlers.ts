@@ -1,9 +1,10 @@
 /** The kinds of map task the local executor runs, and how a thread (or the main thread) starts each. */
 import type { InputSplit } from '../ingest/split.js';
 import {
-  PairsMapper, VocabularyMapper, transferablesOf,
-  type PairsPartial, type PairsSetup, type PairsTask, type ReadSetup, type SplitResult, type VocabularyPartial,
+  PairsMapper, VocabularyMapper, transferablesOf as countTransferables,
+  type PairsPartial, type PairsSetup, type PairsTask, type SplitResult, type VocabularyPartial, type VocabularySetup,
 } from '../count/map.js';
+import type { WeightResult, WeightSetup, WeightTask } from '../weight/map.js';
 
 /** One mapper: runs tasks one after the other, then hands over its accumulated partial result. */
 export interface Mapper<Task, Result, Partial> {
@@ -12,22 +13,34 @@ export interface Mapper<Task, Result, Partial> {
 }
 
 export interface MapKinds {
-  vocabulary: { setup: ReadSetup; task: InputSplit; result: SplitResult; partial: VocabularyPartial };
+  vocabulary: { setup: VocabularySetup; task: InputSplit; result: SplitResult; partial: VocabularyPartial };
   pairs: { setup: PairsSetup; task: PairsTask; result: SplitResult; partial: PairsPartial };
+  weight: { setup: WeightSetup; task: WeightTask; result: WeightResult; partial: Record<string, never> };
 }
 
 export type MapKind = keyof MapKinds;
 
-type AnyMapper = Mapper<unknown, unknown, VocabularyPartial | PairsPartial>;
+type AnyPartial = MapKinds[MapKind]['partial'];
+type AnyMapper = Mapper<unknown, unknown, AnyPartial>;
 
 /** Starts a mapper of the given kind (setup and tasks are as MapKinds says for that kind). */
 export async function createMapper(kind: MapKind, setup: unknown): Promise<AnyMapper> {
   if (kind === 'vocabulary') {
-    const m = await VocabularyMapper.create(setup as ReadSetup);
+    const m = await VocabularyMapper.create(setup as VocabularySetup);
     return { run: (t, p) => m.run(t as InputSplit, p), finish: () => m.finish() };
+  }
+  if (kind === 'weight') {
+    // loaded only here: the Arrow reader and the schemes are not needed by the counting threads
+    const { WeightMapper } = await import('../weight/map.js');
+    const m = new WeightMapper(setup as WeightSetup);
+    return { run: (t, p) => m.run(t as WeightTask, p), finish: () => m.finish() };
   }
   const m = await PairsMapper.create(setup as PairsSetup);
   return { run: (t, p) => m.run(t as PairsTask, p), finish: () => m.finish() };
 }
 
-export { transferablesOf };
+/** The typed arrays of a partial, for a zero-copy hand-over between threads. */
+export function transferablesOf(partial: AnyPartial): ArrayBuffer[] {
+  if ('terms' in partial || 'dense' in partial) return countTransferables(partial as VocabularyPartial | PairsPartial);
+  return [];
+}

@@ -1,4 +1,4 @@
-import { promises as fsp } from 'node:fs';
+import { promises as fsp, writeSync } from 'node:fs';
 import path from 'node:path';
 import { KindredError } from '../errors.js';
 
@@ -87,4 +87,13 @@ export function wrapWriteError(e: unknown, target: string, preferTarget = false)
     return new KindredError(`cannot write ${where}: ${describeWriteFailure(err.code)}${hint}`);
   }
   return e;
+}
+
+/** Writes bytes[0, length) at the file position of fd; a failure becomes a one-line error naming file. */
+export function writeBytesOrThrow(fd: number, bytes: Uint8Array, length: number, file: string): void {
+  try {
+    writeSync(fd, bytes, 0, length);
+  } catch (e) {
+    throw wrapWriteError(e, file);
+  }
 }

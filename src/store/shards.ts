@@ -46,6 +46,18 @@ export class ShardWriter {
     if (this.fill === BATCH_ENTRIES) this.flushBatch();
   }
 
+  /** Appends one row's entries: columns cols[0, n) ascending, each value valuesByCol[col] / divisor. */
+  appendRow(row: number, cols: Uint32Array, valuesByCol: Float64Array, n: number, divisor: number): void {
+    for (let i = 0; i < n; i++) {
+      const c = cols[i];
+      this.rows[this.fill] = row;
+      this.cols[this.fill] = c;
+      this.values[this.fill] = valuesByCol[c] / divisor;
+      if (++this.fill === BATCH_ENTRIES) this.flushBatch();
+    }
+    this.entries += n;
+  }
+
   /** Appends every entry of a row block. */
   appendBlock(block: RowBlock): void {
     const nRows = block.indptr.length - 1;

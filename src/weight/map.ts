@@ -1,0 +1,47 @@
+/**
+ * The weight stage's map task, run in a worker thread or the main thread alike: one count part in, its weighted
+ * and normalized part out, streamed in blocks of complete rows. Parts are independent given the marginals, so
+ * the output does not depend on which thread weighted which part.
+ */
+import type { Normalization, WeightingConfig } from '../config/types.js';
+import type { ShardValueType } from '../store/shards.js';
+import { ShardWriter, readShardBlocks } from '../store/shards.js';
+import { weightBlock, normalizeRows } from './index.js';
+import type { Marginals } from './types.js';
+
+export interface WeightSetup {
+  weighting: WeightingConfig;
+  normalize: Normalization;
+  valueType: ShardValueType;
+  marginals: Marginals;
+}
+
+export interface WeightTask {
+  countsFile: string;
+  outFile: string;
+  firstRow: number;
+  endRow: number;
+}
+
+export interface WeightResult {
+  entries: number;
+}
+
+export class WeightMapper {
+  constructor(private readonly setup: WeightSetup) {}
+
+  async run(task: WeightTask, onProgress: (parts: number) => void): Promise<WeightResult> {
+    const { weighting, normalize, valueType, marginals } = this.setup;
+    const writer = new ShardWriter(task.outFile, valueType);
+    for await (const counts of readShardBlocks(task.countsFile, task.firstRow, task.endRow)) {
+      writer.appendBlock(normalizeRows(weightBlock(counts, marginals, weighting), normalize));
+    }
+    await writer.close();
+    onProgress(1);
+    return { entries: writer.entries };
+  }
+
+  finish(): Record<string, never> {
+    return {};
+  }
+}
