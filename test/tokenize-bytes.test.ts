@@ -11,6 +11,7 @@ import { createTokenizer } from '../src/tokenize/index.js';
 import { createByteTokenizer, scanBytes, NON_ASCII, ASCII_NON_SPACE } from '../src/tokenize/bytes.js';
 import type { TokenizeConfig } from '../src/config/types.js';
 import { mulberry32 as random } from './helpers/random.js';
+import { hashBytes } from '../src/count/term-table.js';
 
 
 // Pieces chosen to hit every branch of the rule: ASCII letters and digits, joiners in and out of place,
@@ -60,8 +61,14 @@ describe('byte tokenizer gives the tokens of the reference rule (src/tokenize/in
         if ((scan & NON_ASCII) === 0) {
           expect((scan & ASCII_NON_SPACE) !== 0).toBe(/\S/.test(text));
           const viaBytes: string[] = [];
-          bytes.tokenizeAscii(buf, 2, buf.length - 2, (b, s, e) => viaBytes.push(decoder.decode(b.subarray(s, e))));
+          let badHashes = 0;
+          bytes.tokenizeAscii(buf, 2, buf.length - 2, (b, s, e, h) => {
+            viaBytes.push(decoder.decode(b.subarray(s, e)));
+            // the hash fused into the scan is FNV-1a of the emitted bytes (hashBytes: common practice, no source)
+            if (h !== hashBytes(b, s, e)) badHashes++;
+          });
           expect(viaBytes, JSON.stringify(text)).toEqual(expected);
+          expect(badHashes, JSON.stringify(text)).toBe(0);
         }
       }
     });

@@ -58,8 +58,8 @@ export class VocabularyMapper {
   private streams = 0;
 
   private constructor(private readonly setup: VocabularySetup, private readonly tokenizer: ByteTokenizer) {
-    const add: TokenSink = (bytes, start, end) => {
-      const id = this.table.intern(bytes, start, end);
+    const add: TokenSink = (bytes, start, end, hash) => {
+      const id = this.table.internHashed(bytes, start, end, hash);
       if (id === this.counts.length) this.grow();
       this.counts[id]++;
       if (this.lastDoc[id] !== this.doc) {
@@ -177,14 +177,14 @@ export class PairsMapper {
       { nRows: setup.vocabulary.offsets.length - 1, nCols: setup.nCols, denseSize: setup.denseSize, triangle: ctx.type === 'window' && ctx.direction === 'symmetric', capacity: setup.capacity },
       () => path.join(setup.spillDir, `m${String(setup.mapper).padStart(3, '0')}-run-${String(runs++).padStart(5, '0')}.bin`),
     );
-    const push: TokenSink = (bytes, start, end) => {
+    const push: TokenSink = (bytes, start, end, hash) => {
       const ids = this.ids ?? (this.ids = TermTable.fromTermBytes(setup.vocabulary));
       if (this.len === this.buf.length) {
         const bigger = new Int32Array(this.buf.length * 2);
         bigger.set(this.buf);
         this.buf = bigger;
       }
-      this.buf[this.len++] = ids.find(bytes, start, end);
+      this.buf[this.len++] = ids.findHashed(bytes, start, end, hash);
     };
     const done = (): void => {
       if (ctx.type === 'document') this.acc.addDocument(this.buf, this.len, this.doc);

@@ -34,6 +34,7 @@ export class TermTable {
   /** starts[id] is the arena offset of term id; its end is starts[id + 1]. */
   starts: Uint32Array;
   private hashes: Uint32Array;
+  /** Interleaved slots: [2i] the term's hash (as int32), [2i + 1] its id or EMPTY; one cache line serves a probe. */
   private slots: Int32Array;
   private mask: number;
   size = 0;
@@ -41,7 +42,7 @@ export class TermTable {
   constructor(expectedTerms = 1024) {
     let cap = 1024;
     while (cap * 0.5 < expectedTerms) cap *= 2;
-    this.slots = new Int32Array(cap).fill(EMPTY);
+    this.slots = new Int32Array(2 * cap).fill(EMPTY);
     this.mask = cap - 1;
     this.starts = new Uint32Array(Math.max(16, expectedTerms) + 1);
     this.hashes = new Uint32Array(Math.max(16, expectedTerms));
@@ -58,13 +59,18 @@ export class TermTable {
 
   /** The id of bytes[start, end), or -1 when absent. */
   find(bytes: Uint8Array, start: number, end: number): number {
-    const h = hashBytes(bytes, start, end);
+    return this.findHashed(bytes, start, end, hashBytes(bytes, start, end));
+  }
+
+  /** find() given h = hashBytes(bytes, start, end). */
+  findHashed(bytes: Uint8Array, start: number, end: number, h: number): number {
     const len = end - start;
-    const { slots, starts, arena, hashes, mask } = this;
+    const { slots, starts, arena, mask } = this;
+    const hs = h | 0;
     for (let i = h & mask; ; i = (i + 1) & mask) {
-      const id = slots[i];
+      const id = slots[2 * i + 1];
       if (id === EMPTY) return -1;
-      if (hashes[id] !== h) continue;
+      if (slots[2 * i] !== hs) continue;
       const s = starts[id];
       if (starts[id + 1] - s !== len) continue;
       let k = 0;
@@ -75,13 +81,18 @@ export class TermTable {
 
   /** The id of bytes[start, end), inserting the term when absent. */
   intern(bytes: Uint8Array, start: number, end: number): number {
-    const h = hashBytes(bytes, start, end);
+    return this.internHashed(bytes, start, end, hashBytes(bytes, start, end));
+  }
+
+  /** intern() given h = hashBytes(bytes, start, end). */
+  internHashed(bytes: Uint8Array, start: number, end: number, h: number): number {
     const len = end - start;
+    const hs = h | 0;
     let i = h & this.mask;
     for (; ; i = (i + 1) & this.mask) {
-      const id = this.slots[i];
+      const id = this.slots[2 * i + 1];
       if (id === EMPTY) break;
-      if (this.hashes[id] !== h) continue;
+      if (this.slots[2 * i] !== hs) continue;
       const s = this.starts[id];
       if (this.starts[id + 1] - s !== len) continue;
       let k = 0;
@@ -96,9 +107,10 @@ export class TermTable {
     this.arenaFill += len;
     this.starts[id + 1] = this.arenaFill;
     this.hashes[id] = h;
-    this.slots[i] = id;
+    this.slots[2 * i] = hs;
+    this.slots[2 * i + 1] = id;
     this.size++;
-    if (this.size * 2 > this.slots.length) this.rehash();
+    if (this.size * 4 > this.slots.length) this.rehash();
     return id;
   }
 
@@ -131,13 +143,14 @@ export class TermTable {
   }
 
   private rehash(): void {
-    const cap = this.slots.length * 2;
-    const slots = new Int32Array(cap).fill(EMPTY);
+    const cap = this.slots.length; // twice the old slot count
+    const slots = new Int32Array(2 * cap).fill(EMPTY);
     const mask = cap - 1;
     for (let id = 0; id < this.size; id++) {
       let i = this.hashes[id] & mask;
-      while (slots[i] !== EMPTY) i = (i + 1) & mask;
-      slots[i] = id;
+      while (slots[2 * i + 1] !== EMPTY) i = (i + 1) & mask;
+      slots[2 * i] = this.hashes[id] | 0;
+      slots[2 * i + 1] = id;
     }
     this.slots = slots;
     this.mask = mask;

@@ -8,13 +8,21 @@
  * characters are A-Z, a-z (letters) and 0-9 (decimal digits); lowercasing ASCII maps A-Z to a-z; an
  * ASCII token's length in code points is its length in bytes.
  */
+import { isAscii } from 'node:buffer';
 import path from 'node:path';
 import type { NumberPolicy, TokenizeConfig } from '../config/types.js';
-import { TermTable } from '../count/term-table.js';
+import { TermTable, hashBytes } from '../count/term-table.js';
 import { createTokenizer, loadStopwords, type Tokenizer } from './index.js';
 
-/** Receives one token as bytes[start, end); the bytes are only valid during the call. */
-export type TokenSink = (bytes: Uint8Array, start: number, end: number) => void;
+/**
+ * Receives one token as bytes[start, end) and its FNV-1a hash (hashBytes of term-table.ts, computed while the
+ * token was scanned); the bytes are only valid during the call.
+ */
+export type TokenSink = (bytes: Uint8Array, start: number, end: number, hash: number) => void;
+
+/** FNV-1a constants (Fowler, Noll, Vo; common practice, no source), as in hashBytes of term-table.ts. */
+const FNV_OFFSET = 0x811c9dc5;
+const FNV_PRIME = 0x01000193;
 
 const SEPARATOR = 0;
 const LOWER = 1;
@@ -44,6 +52,11 @@ export const ASCII_NON_SPACE = 2;
 
 /** One pass over bytes[start, end): whether it holds non-ASCII bytes and whether it holds an ASCII non-space byte. */
 export function scanBytes(bytes: Uint8Array, start: number, end: number): number {
+  if (isAscii(bytes.subarray(start, end))) {
+    // the native check covers the bytes; a document's first non-space byte is usually its first byte
+    for (let i = start; i < end; i++) if (ASCII_SPACE[bytes[i]] === 0) return ASCII_NON_SPACE;
+    return 0;
+  }
   let found = 0;
   for (let i = start; i < end; i++) {
     const b = bytes[i];
@@ -66,6 +79,7 @@ export class ByteTokenizer {
   private lowered = Buffer.allocUnsafe(256);
   private encoded = Buffer.allocUnsafe(1024);
   private readonly placeholder: Buffer;
+  private readonly placeholderHash: number;
 
   constructor(
     private readonly lowercase: boolean,
@@ -78,11 +92,13 @@ export class ByteTokenizer {
     private readonly reference: Tokenizer,
   ) {
     this.placeholder = Buffer.from(numberPlaceholder, 'utf8');
+    this.placeholderHash = hashBytes(this.placeholder, 0, this.placeholder.length);
   }
 
   /** Tokens of ASCII bytes[start, end) (the caller has checked with scanBytes that no byte is ≥ 0x80). */
   tokenizeAscii(bytes: Uint8Array, start: number, end: number, emit: TokenSink): void {
     const { lowercase, minLength, numbers, stopwords } = this;
+    const upperShift = lowercase ? 32 : 0;
     let i = start;
     while (i < end) {
       let c = CLASS[bytes[i]];
@@ -93,11 +109,16 @@ export class ByteTokenizer {
       const s = i;
       let letters = false;
       let upper = false;
+      // FNV-1a of the token's bytes as emitted (lowercased when asked), computed while scanning
+      let h = FNV_OFFSET;
       for (;;) {
         if (c !== DIGIT) {
           letters = true;
-          if (c === UPPER) upper = true;
-        }
+          if (c === UPPER) {
+            upper = true;
+            h = Math.imul(h ^ (bytes[i] + upperShift), FNV_PRIME);
+          } else h = Math.imul(h ^ bytes[i], FNV_PRIME);
+        } else h = Math.imul(h ^ bytes[i], FNV_PRIME);
         if (++i >= end) break;
         c = CLASS[bytes[i]];
         if (c === SEPARATOR) break;
@@ -107,11 +128,13 @@ export class ByteTokenizer {
         const next = CLASS[bytes[i + 1]];
         if (next === SEPARATOR || next >= JOINER) break;
         if (c === DIGIT_JOINER && (next !== DIGIT || CLASS[bytes[i - 1]] !== DIGIT)) break;
+        h = Math.imul(h ^ bytes[i], FNV_PRIME);
         c = next;
         i++;
       }
+      h >>>= 0;
       if (!letters && numbers !== 'keep') {
-        if (numbers === 'replace') emit(this.placeholder, 0, this.placeholder.length);
+        if (numbers === 'replace') emit(this.placeholder, 0, this.placeholder.length, this.placeholderHash);
         continue;
       }
       const len = i - s;
@@ -127,8 +150,8 @@ export class ByteTokenizer {
           out[k] = CLASS[b] === UPPER ? b + 32 : b;
         }
       }
-      if (stopwords !== null && stopwords.find(out, from, from + len) >= 0) continue;
-      emit(out, from, from + len);
+      if (stopwords !== null && stopwords.findHashed(out, from, from + len, h) >= 0) continue;
+      emit(out, from, from + len, h);
     }
   }
 
@@ -143,7 +166,7 @@ export class ByteTokenizer {
     this.reference.tokenize(text, (token) => {
       if (this.lowered.length < token.length * 3) this.lowered = Buffer.allocUnsafe(token.length * 3 + 256);
       const m = this.lowered.write(token, 0, 'utf8');
-      emit(this.lowered, 0, m);
+      emit(this.lowered, 0, m, hashBytes(this.lowered, 0, m));
     });
   }
 }
