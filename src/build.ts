@@ -7,7 +7,7 @@ import { emptyIngestStats, type IngestStats } from './ingest/types.js';
 import { createTokenizer } from './tokenize/index.js';
 import { pairTableCapacity } from './count/cooccur.js';
 import { countTerms, countPairs, type CountExec, type TermsResult } from './count/passes.js';
-import { resolveWorkers } from './exec/pool.js';
+import { resolveWorkers, withThreadPool } from './exec/pool.js';
 import { partitionRows } from './count/partition.js';
 import { weightShards } from './weight/stage.js';
 import { partFileName } from './store/shards.js';
@@ -187,7 +187,8 @@ export async function runBuild(loaded: LoadedConfig, opts: BuildOptions): Promis
     await area.create();
     await area.clearTemporary();
     await area.create();
-    return await buildAndPublish(loaded, opts, area, progress, notify);
+    // one set of worker threads serves every pass of the build
+    return await withThreadPool(() => buildAndPublish(loaded, opts, area, progress, notify));
   } catch (e) {
     throw asUserError(e, area.tmpDir);
   } finally {

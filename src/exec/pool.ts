@@ -4,6 +4,7 @@
  * each mapper's partial result comes back once, at the end. Whatever the thread count, the caller gets the
  * same task results and partials that sum to the same totals, so outputs do not depend on it.
  */
+import { AsyncLocalStorage } from 'node:async_hooks';
 import { existsSync } from 'node:fs';
 import os from 'node:os';
 import { fileURLToPath } from 'node:url';
@@ -35,6 +36,47 @@ function workerFile(): string | null {
   return existsSync(file) ? file : null;
 }
 
+/**
+ * Threads kept between map runs: the passes of one build reuse them instead of starting threads (and loading
+ * modules) again for every pass. A thread that failed is never returned.
+ */
+class ThreadPool {
+  private readonly idle: Worker[] = [];
+  private readonly all = new Set<Worker>();
+
+  take(n: number, file: string): Worker[] {
+    const out = this.idle.splice(0, n);
+    while (out.length < n) {
+      const w = new Worker(file);
+      this.all.add(w);
+      out.push(w);
+    }
+    return out;
+  }
+
+  give(w: Worker): void {
+    this.idle.push(w);
+  }
+
+  async close(): Promise<void> {
+    await Promise.all([...this.all].map((w) => w.terminate()));
+    this.all.clear();
+    this.idle.length = 0;
+  }
+}
+
+const pools = new AsyncLocalStorage<ThreadPool>();
+
+/** Runs fn with one pool of threads shared by every runMap inside it; the threads end with it. */
+export async function withThreadPool<T>(fn: () => Promise<T>): Promise<T> {
+  const pool = new ThreadPool();
+  try {
+    return await pools.run(pool, fn);
+  } finally {
+    await pool.close();
+  }
+}
+
 export async function runMap<K extends MapKind>(
   kind: K,
   setupFor: (mapper: number) => MapKinds[K]['setup'],
@@ -64,13 +106,16 @@ function runOnThreads<K extends MapKind>(
   return new Promise((resolve, reject) => {
     const results = new Array<MapKinds[K]['result']>(tasks.length);
     const partials = new Array<MapKinds[K]['partial']>(threads);
-    const pool: Worker[] = [];
+    const shared = pools.getStore();
+    const pool: Worker[] = shared ? shared.take(threads, file) : Array.from({ length: threads }, () => new Worker(file));
+    const detach: (() => void)[] = [];
     let next = 0;
     let finished = 0;
     let failed = false;
     const fail = (e: Error): void => {
       if (failed) return;
       failed = true;
+      for (const d of detach) d();
       for (const w of pool) void w.terminate();
       reject(e);
     };
@@ -84,9 +129,8 @@ function runOnThreads<K extends MapKind>(
       }
     };
     for (let m = 0; m < threads; m++) {
-      const w = new Worker(file);
-      pool.push(w);
-      w.on('message', (msg: FromWorker) => {
+      const w = pool[m];
+      const onMessage = (msg: FromWorker): void => {
         if (failed) return;
         switch (msg.type) {
           case 'ready':
@@ -101,7 +145,9 @@ function runOnThreads<K extends MapKind>(
             break;
           case 'partial':
             partials[m] = msg.partial as MapKinds[K]['partial'];
-            void w.terminate();
+            detach[m]();
+            if (shared) shared.give(w);
+            else void w.terminate();
             if (++finished === threads) resolve({ results, partials, threads });
             break;
           case 'error': {
@@ -111,11 +157,19 @@ function runOnThreads<K extends MapKind>(
             break;
           }
         }
-      });
-      w.on('error', (e) => fail(e instanceof Error ? e : new Error(String(e))));
-      w.on('exit', (code) => {
+      };
+      const onError = (e: unknown): void => fail(e instanceof Error ? e : new Error(String(e)));
+      const onExit = (code: number): void => {
         if (partials[m] === undefined && !failed) fail(new Error(`worker thread ${m} exited with code ${code} before it finished`));
-      });
+      };
+      w.on('message', onMessage);
+      w.on('error', onError);
+      w.on('exit', onExit);
+      detach[m] = () => {
+        w.off('message', onMessage);
+        w.off('error', onError);
+        w.off('exit', onExit);
+      };
       send(w, { type: 'setup', kind, setup: setupFor(m) });
     }
   });
