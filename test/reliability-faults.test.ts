@@ -50,6 +50,7 @@ const inTmp = (rest: string): RegExp => new RegExp(`${escape(area)}/tmp/${rest}`
 
 const cases: FaultCase[] = [
   { name: 'vocabulary stage: vocab.arrow', fault: { write: 'vocabulary-[^/]+/.*vocab\\.arrow' }, names: inTmp('vocabulary-[^/]+/vocab\\.arrow') },
+  { name: 'vocabulary stage: a token stream, after 100 bytes', fault: { write: 'tokens-[^/]+/[^/]+\\.ids$', afterBytes: 100 }, names: inTmp('tokens-[^/]+/m000-000000\\.ids') },
   { name: 'count stage: a counts shard, after its first 4 KiB', fault: { write: 'counts/part-00001\\.arrow$', afterBytes: 4096 }, names: inTmp('count-[^/]+/counts/part-00001\\.arrow') },
   { name: 'count stage: the marginals', fault: { write: 'marginals\\.bin' }, names: inTmp('count-[^/]+/marginals\\.bin') },
   { name: 'weight stage: a weighted shard, after 1000 bytes', fault: { write: 'weight-[^/]+/weighted/part-00002\\.arrow$', afterBytes: 1000 }, names: inTmp('weight-[^/]+/weighted/part-00002\\.arrow') },
