@@ -34,7 +34,6 @@ export class TermTable {
   /** starts[id] is the arena offset of term id; its end is starts[id + 1]. */
   starts: Uint32Array;
   private hashes: Uint32Array;
-  /** Interleaved slots: [2i] the term's hash (as int32), [2i + 1] its id or EMPTY; one cache line serves a probe. */
   private slots: Int32Array;
   private mask: number;
   size = 0;
@@ -42,7 +41,7 @@ export class TermTable {
   constructor(expectedTerms = 1024) {
     let cap = 1024;
     while (cap * 0.5 < expectedTerms) cap *= 2;
-    this.slots = new Int32Array(2 * cap).fill(EMPTY);
+    this.slots = new Int32Array(cap).fill(EMPTY);
     this.mask = cap - 1;
     this.starts = new Uint32Array(Math.max(16, expectedTerms) + 1);
     this.hashes = new Uint32Array(Math.max(16, expectedTerms));
@@ -61,16 +60,13 @@ export class TermTable {
   find(bytes: Uint8Array, start: number, end: number): number {
     return this.findHashed(bytes, start, end, hashBytes(bytes, start, end));
   }
-
-  /** find() given h = hashBytes(bytes, start, end). */
   findHashed(bytes: Uint8Array, start: number, end: number, h: number): number {
     const len = end - start;
-    const { slots, starts, arena, mask } = this;
-    const hs = h | 0;
+    const { slots, starts, arena, hashes, mask } = this;
     for (let i = h & mask; ; i = (i + 1) & mask) {
-      const id = slots[2 * i + 1];
+      const id = slots[i];
       if (id === EMPTY) return -1;
-      if (slots[2 * i] !== hs) continue;
+      if (hashes[id] !== h) continue;
       const s = starts[id];
       if (starts[id + 1] - s !== len) continue;
       let k = 0;
@@ -83,16 +79,13 @@ export class TermTable {
   intern(bytes: Uint8Array, start: number, end: number): number {
     return this.internHashed(bytes, start, end, hashBytes(bytes, start, end));
   }
-
-  /** intern() given h = hashBytes(bytes, start, end). */
   internHashed(bytes: Uint8Array, start: number, end: number, h: number): number {
     const len = end - start;
-    const hs = h | 0;
     let i = h & this.mask;
     for (; ; i = (i + 1) & this.mask) {
-      const id = this.slots[2 * i + 1];
+      const id = this.slots[i];
       if (id === EMPTY) break;
-      if (this.slots[2 * i] !== hs) continue;
+      if (this.hashes[id] !== h) continue;
       const s = this.starts[id];
       if (this.starts[id + 1] - s !== len) continue;
       let k = 0;
@@ -107,10 +100,9 @@ export class TermTable {
     this.arenaFill += len;
     this.starts[id + 1] = this.arenaFill;
     this.hashes[id] = h;
-    this.slots[2 * i] = hs;
-    this.slots[2 * i + 1] = id;
+    this.slots[i] = id;
     this.size++;
-    if (this.size * 4 > this.slots.length) this.rehash();
+    if (this.size * 2 > this.slots.length) this.rehash();
     return id;
   }
 
@@ -143,14 +135,13 @@ export class TermTable {
   }
 
   private rehash(): void {
-    const cap = this.slots.length; // twice the old slot count
-    const slots = new Int32Array(2 * cap).fill(EMPTY);
+    const cap = this.slots.length * 2;
+    const slots = new Int32Array(cap).fill(EMPTY);
     const mask = cap - 1;
     for (let id = 0; id < this.size; id++) {
       let i = this.hashes[id] & mask;
-      while (slots[2 * i + 1] !== EMPTY) i = (i + 1) & mask;
-      slots[2 * i] = this.hashes[id] | 0;
-      slots[2 * i + 1] = id;
+      while (slots[i] !== EMPTY) i = (i + 1) & mask;
+      slots[i] = id;
     }
     this.slots = slots;
     this.mask = mask;
