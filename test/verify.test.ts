@@ -202,11 +202,12 @@ describe('verify finds', () => {
     const table = readArrowTable(path.join(swapped, 'vocab.arrow'));
     const ids = Uint32Array.from(table.getChild('id')!.toArray() as Uint32Array);
     [ids[3], ids[4]] = [ids[4], ids[3]];
+    // plain arrays across: kindred reads with its own (bundled) copy of apache-arrow, the test writes with the package's
     const out = new Table({
       id: makeVector(ids),
-      term: table.getChild('term')!,
-      count: table.getChild('count')!,
-      doc_freq: table.getChild('doc_freq')!,
+      term: vectorFromArray(table.getChild('term')!.toArray() as string[], new Utf8()),
+      count: makeVector(BigUint64Array.from(table.getChild('count')!.toArray() as BigUint64Array)),
+      doc_freq: makeVector(Uint32Array.from(table.getChild('doc_freq')!.toArray() as Uint32Array)),
     });
     writeFileSync(path.join(swapped, 'vocab.arrow'), RecordBatchFileWriter.writeAll(out).toUint8Array(true));
     reseal(swapped, 'vocab.arrow');

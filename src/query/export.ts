@@ -6,7 +6,8 @@
 import { promises as fsp } from 'node:fs';
 import path from 'node:path';
 import type { Writable } from 'node:stream';
-import { RecordBatchReader, type RecordBatch } from 'apache-arrow';
+import type { RecordBatch } from 'apache-arrow';
+import { RecordBatchReader } from '../store/arrow.js';
 import { KindredError } from '../errors.js';
 import { VECTORS_FILE } from '../reduce/vectors-file.js';
 import { readManifest, resolveBuildDir } from '../store/manifest.js';

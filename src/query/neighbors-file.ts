@@ -2,7 +2,8 @@
  * neighbors.arrow: one row per (term, neighbour), sorted by term id then rank:
  * `term: utf8, rank: uint32, neighbor: utf8, score: float64, distance: float64, term_id: uint32, neighbor_id: uint32`.
  */
-import { Field, Float64, makeData, Schema, Uint32, Utf8, type Data } from 'apache-arrow';
+import type { Data, Schema as ArrowSchema } from 'apache-arrow';
+import { Field, Float64, makeData, Schema, Uint32, Utf8 } from '../store/arrow.js';
 import { KindredError } from '../errors.js';
 import type { MeasureName } from '../measures/index.js';
 import { readArrowTable } from '../store/shards.js';
@@ -15,7 +16,7 @@ export const NEIGHBORS_FILE = 'neighbors.arrow';
 /** Table rows buffered before a record batch is written. */
 const BATCH_ROWS = 1 << 16;
 
-function neighborsSchema(): Schema {
+function neighborsSchema(): ArrowSchema {
   return new Schema([
     new Field('term', new Utf8(), false),
     new Field('rank', new Uint32(), false),

@@ -1,5 +1,6 @@
 /** vectors.arrow: `id: uint32, term: utf8, vector: FixedSizeList<float32>[d]`, sorted by id. */
-import { Field, FixedSizeList, Float32, makeData, Schema, Uint32, Utf8, type Data } from 'apache-arrow';
+import type { Data, Schema as ArrowSchema, FixedSizeList as FixedSizeListType, Float32 as Float32Type } from 'apache-arrow';
+import { Field, FixedSizeList, Float32, makeData, Schema, Uint32, Utf8 } from '../store/arrow.js';
 import { KindredError } from '../errors.js';
 import { readArrowTable } from '../store/shards.js';
 import { ArrowFileSink, utf8Data } from '../store/arrow-sink.js';
@@ -9,7 +10,7 @@ export const VECTORS_FILE = 'vectors.arrow';
 /** Rows per record batch: about 2 MiB of floats at d = 100. */
 const BATCH_ROWS = 1 << 13;
 
-function vectorsSchema(dim: number): Schema {
+function vectorsSchema(dim: number): ArrowSchema {
   return new Schema([
     new Field('id', new Uint32(), false),
     new Field('term', new Utf8(), false),
@@ -21,7 +22,7 @@ function vectorsSchema(dim: number): Schema {
 export async function writeVectors(file: string, terms: readonly string[], vectors: Float64Array, dim: number): Promise<void> {
   if (vectors.length !== terms.length * dim) throw new RangeError(`writeVectors: ${vectors.length} values for ${terms.length}×${dim}`);
   const schema = vectorsSchema(dim);
-  const listType = schema.fields[2].type as FixedSizeList<Float32>;
+  const listType = schema.fields[2].type as FixedSizeListType<Float32Type>;
   const sink = new ArrowFileSink(file, schema);
   const batch = (start: number, end: number): Data[] => {
     const n = end - start;

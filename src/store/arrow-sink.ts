@@ -2,14 +2,15 @@
  * Streams record batches of one schema into an Arrow IPC file, so tables larger than memory (neighbour lists of
  * every term, vectors of 100,000 terms) are written batch by batch.
  */
-import { closeSync, fsyncSync, openSync, writeSync } from 'node:fs';
-import { makeData, RecordBatch, RecordBatchFileWriter, Struct, Utf8, type Data, type Schema } from 'apache-arrow';
-import { wrapWriteError } from './atomic.js';
+import { closeSync, fsyncSync, openSync } from 'node:fs';
+import type { Data, Schema, Utf8 as Utf8Type } from 'apache-arrow';
+import { AsyncByteQueue, makeData, RecordBatch, RecordBatchFileWriter, Struct, Utf8 } from './arrow.js';
+import { wrapWriteError, writeBytesOrThrow } from './atomic.js';
 
 const encoder = new TextEncoder();
 
 /** Utf8 column data for `strings` (no nulls). */
-export function utf8Data(strings: readonly string[]): Data<Utf8> {
+export function utf8Data(strings: readonly string[]): Data<Utf8Type> {
   const encoded = strings.map((s) => encoder.encode(s));
   const offsets = new Int32Array(strings.length + 1);
   for (let i = 0; i < encoded.length; i++) offsets[i + 1] = offsets[i] + encoded[i].length;
@@ -19,12 +20,19 @@ export function utf8Data(strings: readonly string[]): Data<Utf8> {
 }
 
 /**
- * apache-arrow's writer queues the bytes of each batch until a reader pulls them; nothing pulls while a
- * synchronous loop (a k-way merge) writes, so the queue is emptied into the file by hand after every batch.
- * `_sink._values` is that queue in apache-arrow 21.2.0, which package.json pins exactly.
+ * The byte sink of an Arrow writer that puts every chunk straight into the file: apache-arrow's writers write
+ * into an AsyncByteQueue and keep the bytes until a reader pulls them, which no one does while a synchronous
+ * loop (the merge) writes; handing the writer this subclass (its public `reset(sink)`) makes memory stay at
+ * one batch whatever the file's size.
  */
-interface QueuedBytes {
-  _sink: { _values: Uint8Array[] };
+class FileByteSink extends AsyncByteQueue {
+  constructor(private readonly fd: number, private readonly file: string) {
+    super();
+  }
+
+  override write(value: Uint8Array): void {
+    writeBytesOrThrow(this.fd, value, value.byteLength, this.file);
+  }
 }
 
 export class ArrowFileSink {
@@ -39,16 +47,7 @@ export class ArrowFileSink {
     } catch (e) {
       throw wrapWriteError(e, file);
     }
-  }
-
-  /** Moves every queued chunk into the file: memory stays at one batch. */
-  private drain(): void {
-    const queued = (this.writer as unknown as QueuedBytes)._sink._values;
-    try {
-      for (const chunk of queued.splice(0)) writeSync(this.fd, chunk);
-    } catch (e) {
-      throw wrapWriteError(e, this.file);
-    }
+    this.writer.reset(new FileByteSink(this.fd, file));
   }
 
   /** Writes one batch; `children` follow the schema's fields, each of `length` rows. */
@@ -56,7 +55,6 @@ export class ArrowFileSink {
     const batch = new RecordBatch(this.schema, makeData({ type: new Struct(this.schema.fields), length, nullCount: 0, children }));
     // one schema object for every batch, so the writer keeps a single stream
     this.writer.write(batch);
-    this.drain();
     this.rows += length;
     this.wroteAny = true;
   }
@@ -66,7 +64,6 @@ export class ArrowFileSink {
     try {
       if (!this.wroteAny) this.write(emptyChildren(), 0);
       this.writer.finish();
-      this.drain();
       fsyncSync(this.fd);
     } catch (e) {
       throw wrapWriteError(e, this.file);

@@ -1,6 +1,7 @@
 import { readFileSync, promises as fsp } from 'node:fs';
 import type { FileHandle } from 'node:fs/promises';
-import { RecordBatchReader, Schema, Field, makeData, tableFromIPC, Float32, Float64, Uint32, type Data } from 'apache-arrow';
+import type { Data } from 'apache-arrow';
+import { RecordBatchReader, Schema, Field, makeData, tableFromIPC, Float32, Float64, Uint32 } from './arrow.js';
 import type { Table, AsyncRecordBatchFileReader, AsyncRecordBatchStreamReader } from 'apache-arrow';
 import { KindredError } from '../errors.js';
 import type { RowBlock } from '../weight/types.js';

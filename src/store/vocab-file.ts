@@ -1,4 +1,4 @@
-import { Table, makeVector, vectorFromArray, Utf8, RecordBatchFileWriter } from 'apache-arrow';
+import { Table, makeVector, vectorFromArray, Utf8, RecordBatchFileWriter } from './arrow.js';
 import { writeFileAtomic } from './atomic.js';
 import { readArrowTable } from './shards.js';
 import { KindredError } from '../errors.js';
