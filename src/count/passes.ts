@@ -11,8 +11,9 @@ import type { Vocabulary } from '../store/vocab-file.js';
 import { planAccumulators, windowWeights } from './cooccur.js';
 import {
   RowsSource, DenseSource, RunReader, mergeSources, type SortedSource,
-  RowsRowSource, DenseRowSource, SortedRowSource, mergeRowWise, MAX_ROW_WISE_COLUMNS, type RowWiseSource,
+  MAX_ROW_WISE_COLUMNS, sliceRows,
 } from './runs.js';
+import type { MergeTask } from './merge-map.js';
 import { TermTable, compareBytes, type TermBytes } from './term-table.js';
 import type { RowRange } from './partition.js';
 import type { TokenStreamRef } from './token-stream.js';
@@ -196,28 +197,28 @@ export async function countPairs(
   const rowNnz = new Uint32Array(nRows);
   let total = 0;
   const { scale } = windowWeights(cfg.contexts);
-  const writers = ranges.map((_, i) => new ShardWriter(path.join(workDir, 'counts', partFileName(i)), 'float64'));
-  let part = 0;
+  const partFile = (i: number): string => path.join(workDir, 'counts', partFileName(i));
+  let entries: number[];
   if (nCols <= MAX_ROW_WISE_COLUMNS) {
-    // row by row: each row's entries summed in a dense scratch row, then written in column order
-    const sources: RowWiseSource[] = run.partials.map((p) => new RowsRowSource(p.rowStart, p.cols, p.values));
-    if (first.denseSize > 0) sources.push(new DenseRowSource(run.partials.map((p) => p.dense), first.denseSize, first.triangle));
-    for (const f of runs) sources.push(new SortedRowSource(new RunReader(f, bufferRecords)));
-    mergeRowWise(sources, nRows, nCols, (r, cols, sums, n) => {
-      let rowSum = 0;
-      for (let i = 0; i < n; i++) {
-        const c = cols[i];
-        const v = sums[c];
-        rowSum += v;
-        colSums[c] += v;
-      }
-      rowSums[r] += rowSum;
-      rowNnz[r] = n;
-      total += rowSum;
-      while (r >= ranges[part].endRow) part++;
-      writers[part].appendRow(r, cols, sums, n, scale);
-    });
+    // row by row, one part per task on the threads: each row's entries summed in a dense scratch row
+    const tasks: MergeTask[] = ranges.map((r, i) => ({
+      file: partFile(i), firstRow: r.firstRow, endRow: r.endRow,
+      rows: run.partials.map((p) => sliceRows(p.rowStart, p.cols, p.values, r.firstRow, r.endRow)),
+    }));
+    const dense = first.denseSize > 0 ? { blocks: run.partials.map((p) => p.dense), size: first.denseSize, triangle: first.triangle } : null;
+    run.partials.length = 0; // the slices hold what the merge needs; let the partials go
+    const merged = await runMap('merge', () => ({ nCols, scale, runs, bufferRecords, dense }), tasks, exec.workers);
+    // sums of integers (scaled weights) are exact, so adding the parts' column sums in any order gives the same bits
+    for (const [i, m] of merged.results.entries()) {
+      rowSums.set(m.rowSums, ranges[i].firstRow);
+      rowNnz.set(m.rowNnz, ranges[i].firstRow);
+      for (let c = 0; c < nCols; c++) colSums[c] += m.colSums[c];
+      total += m.total;
+    }
+    entries = merged.results.map((m) => m.entries);
   } else {
+    const writers = ranges.map((_, i) => new ShardWriter(partFile(i), 'float64'));
+    let part = 0;
     const sources: SortedSource[] = run.partials.map((p) => new RowsSource(p.rowStart, p.cols, p.values));
     if (first.denseSize > 0) sources.push(new DenseSource(run.partials.map((p) => p.dense), first.denseSize, first.triangle));
     for (const f of runs) sources.push(new RunReader(f, bufferRecords));
@@ -229,14 +230,14 @@ export async function countPairs(
       while (r >= ranges[part].endRow) part++;
       writers[part].append(r, c, scaled / scale);
     });
+    for (const w of writers) await w.close();
+    entries = writers.map((w) => w.entries);
   }
   for (const f of runs) rmSync(f, { force: true });
   if (streams !== null) for (const r of streams.refs) rmSync(r.file, { force: true });
-  for (const w of writers) await w.close();
   for (let r = 0; r < nRows; r++) rowSums[r] /= scale;
   for (let c = 0; c < nCols; c++) colSums[c] /= scale;
   const marginals: Marginals = { nRows, nCols, rowSums, colSums, total: total / scale, rowNnz };
-  const entries = writers.map((w) => w.entries);
   progress.end(`${pairs} pair events, ${entries.reduce((s, n) => s + n, 0)} nonzero counts, ${runs.length} spilled runs (${run.threads} thread${run.threads > 1 ? 's' : ''})`);
   return { marginals, entries, pairs, spilledRuns: runs.length, threads: run.threads };
 }

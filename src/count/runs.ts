@@ -1,4 +1,4 @@
-import { openSync, readSync, closeSync } from 'node:fs';
+import { openSync, readSync, closeSync, fstatSync } from 'node:fs';
 import { wrapWriteError, writeBytesOrThrow } from '../store/atomic.js';
 
 /** A spilled run: sorted (row u32, col u32, value f64) records, 16 bytes each, little-endian. */
@@ -60,20 +60,45 @@ export class RunReader implements SortedSource {
   value = 0;
   done = false;
 
-  constructor(readonly file: string, bufferRecords = BUFFER_RECORDS) {
+  /** Next file offset to read from. */
+  private position = 0;
+
+  /** Reads the run from its first record of a row ≥ fromRow (found by binary search over the fixed-size records). */
+  constructor(readonly file: string, bufferRecords = BUFFER_RECORDS, fromRow = 0) {
     this.buf = Buffer.allocUnsafe(RECORD * Math.max(1, bufferRecords));
     this.fd = openSync(file, 'r');
+    if (fromRow > 0) this.position = RECORD * this.firstRecordOfRow(fromRow);
     this.advance();
+  }
+
+  /** Stops reading and closes the file (also at the end of the run). */
+  close(): void {
+    if (this.done) return;
+    this.done = true;
+    closeSync(this.fd);
+  }
+
+  private firstRecordOfRow(row: number): number {
+    const one = Buffer.allocUnsafe(4);
+    let lo = 0;
+    let hi = Math.floor(fstatSync(this.fd).size / RECORD);
+    while (lo < hi) {
+      const mid = (lo + hi) >>> 1;
+      readSync(this.fd, one, 0, 4, mid * RECORD);
+      if (one.readUInt32LE(0) < row) lo = mid + 1;
+      else hi = mid;
+    }
+    return lo;
   }
 
   advance(): void {
     if (this.at === this.have) {
-      const bytes = readSync(this.fd, this.buf, 0, this.buf.length, null);
+      const bytes = readSync(this.fd, this.buf, 0, this.buf.length, this.position);
+      this.position += bytes;
       this.have = Math.floor(bytes / RECORD);
       this.at = 0;
       if (this.have === 0) {
-        this.done = true;
-        closeSync(this.fd);
+        this.close();
         return;
       }
     }
@@ -260,15 +285,28 @@ export class RowAccumulator {
   }
 }
 
-/** Compressed sparse rows in memory as a row-wise source. */
+/** Compressed sparse rows in memory as a row-wise source; rowStart[i] belongs to row firstRow + i. */
 export class RowsRowSource implements RowWiseSource {
-  constructor(private readonly rowStart: Float64Array, private readonly cols: Uint32Array, private readonly values: Float64Array) {}
+  constructor(
+    private readonly rowStart: Float64Array, private readonly cols: Uint32Array, private readonly values: Float64Array,
+    private readonly firstRow = 0,
+  ) {}
 
   addRow(r: number, acc: RowAccumulator): void {
     const { cols, values } = this;
-    const end = this.rowStart[r + 1];
-    for (let p = this.rowStart[r]; p < end; p++) acc.add(cols[p], values[p]);
+    const i = r - this.firstRow;
+    const end = this.rowStart[i + 1];
+    for (let p = this.rowStart[i]; p < end; p++) acc.add(cols[p], values[p]);
   }
+}
+
+/** Rows [firstRow, endRow) of compressed sparse rows, copied out (rowStart rebased to 0). */
+export function sliceRows(rowStart: Float64Array, cols: Uint32Array, values: Float64Array, firstRow: number, endRow: number): { rowStart: Float64Array; cols: Uint32Array; values: Float64Array } {
+  const base = rowStart[firstRow];
+  const end = rowStart[endRow];
+  const starts = new Float64Array(endRow - firstRow + 1);
+  for (let i = 0; i < starts.length; i++) starts[i] = rowStart[firstRow + i] - base;
+  return { rowStart: starts, cols: cols.slice(base, end), values: values.slice(base, end) };
 }
 
 /** Dense blocks (summed cell by cell) as a row-wise source; triangles as in DenseSource. */
@@ -298,7 +336,12 @@ export class DenseRowSource implements RowWiseSource {
 
 /** A sorted source (a spilled run) as a row-wise source. */
 export class SortedRowSource implements RowWiseSource {
-  constructor(private readonly source: SortedSource) {}
+  constructor(private readonly source: SortedSource & { close?(): void }) {}
+
+  /** Releases the source (a run read only in part stays open otherwise). */
+  close(): void {
+    this.source.close?.();
+  }
 
   addRow(r: number, acc: RowAccumulator): void {
     const s = this.source;
@@ -313,13 +356,16 @@ export class SortedRowSource implements RowWiseSource {
 export const MAX_ROW_WISE_COLUMNS = 1 << 24;
 
 /**
- * Merges row-wise sources row by row, summing equal (row, col) entries: each row's entries are summed in a dense
+ * Merges rows [firstRow, endRow) of row-wise sources row by row, summing equal (row, col) entries: each row's entries are summed in a dense
  * scratch row, its columns sorted, and handed to emitRow(row, cols, sums, n), where sums is indexed by column
  * (valid during the call only). Faster than a heap over entries when rows are many entries long.
  */
-export function mergeRowWise(sources: RowWiseSource[], nRows: number, nCols: number, emitRow: (row: number, cols: Uint32Array, sums: Float64Array, n: number) => void): void {
+export function mergeRowWise(
+  sources: RowWiseSource[], firstRow: number, endRow: number, nCols: number,
+  emitRow: (row: number, cols: Uint32Array, sums: Float64Array, n: number) => void,
+): void {
   const acc = new RowAccumulator(nCols);
-  for (let r = 0; r < nRows; r++) {
+  for (let r = firstRow; r < endRow; r++) {
     for (const s of sources) s.addRow(r, acc);
     const n = acc.n;
     if (n === 0) continue;

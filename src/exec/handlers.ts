@@ -5,6 +5,7 @@ import {
   type PairsPartial, type PairsSetup, type PairsTask, type SplitResult, type VocabularyPartial, type VocabularySetup,
 } from '../count/map.js';
 import type { WeightResult, WeightSetup, WeightTask } from '../weight/map.js';
+import type { MergeResult, MergeSetup, MergeTask } from '../count/merge-map.js';
 
 /** One mapper: runs tasks one after the other, then hands over its accumulated partial result. */
 export interface Mapper<Task, Result, Partial> {
@@ -16,6 +17,7 @@ export interface MapKinds {
   vocabulary: { setup: VocabularySetup; task: InputSplit; result: SplitResult; partial: VocabularyPartial };
   pairs: { setup: PairsSetup; task: PairsTask; result: SplitResult; partial: PairsPartial };
   weight: { setup: WeightSetup; task: WeightTask; result: WeightResult; partial: Record<string, never> };
+  merge: { setup: MergeSetup; task: MergeTask; result: MergeResult; partial: Record<string, never> };
 }
 
 export type MapKind = keyof MapKinds;
@@ -35,6 +37,11 @@ export async function createMapper(kind: MapKind, setup: unknown): Promise<AnyMa
     const m = new WeightMapper(setup as WeightSetup);
     return { run: (t, p) => m.run(t as WeightTask, p), finish: () => m.finish() };
   }
+  if (kind === 'merge') {
+    const { MergeMapper } = await import('../count/merge-map.js');
+    const m = new MergeMapper(setup as MergeSetup);
+    return { run: (t, p) => m.run(t as MergeTask, p), finish: () => m.finish() };
+  }
   const m = await PairsMapper.create(setup as PairsSetup);
   return { run: (t, p) => m.run(t as PairsTask, p), finish: () => m.finish() };
 }
@@ -43,4 +50,17 @@ export async function createMapper(kind: MapKind, setup: unknown): Promise<AnyMa
 export function transferablesOf(partial: AnyPartial): ArrayBuffer[] {
   if ('terms' in partial || 'dense' in partial) return countTransferables(partial as VocabularyPartial | PairsPartial);
   return [];
+}
+
+/** Typed arrays a task hands to its thread for good (moved, not copied). */
+export function taskTransferables(kind: MapKind, task: unknown): ArrayBuffer[] {
+  if (kind !== 'merge') return [];
+  return (task as MergeTask).rows.flatMap((r) => [r.rowStart.buffer, r.cols.buffer, r.values.buffer] as ArrayBuffer[]).filter((b) => b.byteLength > 0);
+}
+
+/** Typed arrays of a task result worth moving back rather than copying. */
+export function resultTransferables(result: unknown): ArrayBuffer[] {
+  const r = result as Partial<MergeResult>;
+  if (r.colSums === undefined || r.rowSums === undefined || r.rowNnz === undefined) return [];
+  return [r.colSums.buffer, r.rowSums.buffer, r.rowNnz.buffer] as ArrayBuffer[];
 }

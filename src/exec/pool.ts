@@ -10,7 +10,7 @@ import os from 'node:os';
 import { fileURLToPath } from 'node:url';
 import { Worker } from 'node:worker_threads';
 import { KindredError } from '../errors.js';
-import { createMapper, type MapKind, type MapKinds } from './handlers.js';
+import { createMapper, taskTransferables, type MapKind, type MapKinds } from './handlers.js';
 import type { FromWorker, ToWorker } from './protocol.js';
 
 export interface MapRun<K extends MapKind> {
@@ -119,11 +119,11 @@ function runOnThreads<K extends MapKind>(
       for (const w of pool) void w.terminate();
       reject(e);
     };
-    const send = (w: Worker, m: ToWorker): void => w.postMessage(m);
+    const send = (w: Worker, m: ToWorker, transfer: ArrayBuffer[] = []): void => w.postMessage(m, transfer);
     const dispatch = (w: Worker): void => {
       if (next < tasks.length) {
         const index = next++;
-        send(w, { type: 'task', index, task: tasks[index] });
+        send(w, { type: 'task', index, task: tasks[index] }, taskTransferables(kind, tasks[index]));
       } else {
         send(w, { type: 'finish' });
       }

@@ -1,7 +1,7 @@
 /** Entry point of a worker thread of the local executor: one mapper, tasks from the parent, one partial back. */
 import { parentPort } from 'node:worker_threads';
 import { isKindredError } from '../errors.js';
-import { createMapper, transferablesOf } from './handlers.js';
+import { createMapper, resultTransferables, transferablesOf } from './handlers.js';
 import type { FromWorker, ToWorker } from './protocol.js';
 
 const port = parentPort;
@@ -28,7 +28,7 @@ async function handle(msg: ToWorker): Promise<void> {
     const result = await mapper!.run(msg.task, progress);
     if (pending > 0) send({ type: 'progress', bytes: pending });
     pending = 0;
-    send({ type: 'result', index: msg.index, result });
+    send({ type: 'result', index: msg.index, result }, resultTransferables(result));
   } else {
     const partial = mapper!.finish();
     mapper = null;
