@@ -4,9 +4,21 @@
  * packed keys for the rest. Symmetric windows store each unordered pair once (the matrix is symmetric), which
  * halves the work; both orientations are written out when entries leave the accumulator.
  *
+ * Hash events are first appended to a small staging buffer and added to the hash a few thousand at a time, in
+ * the order they arrived. The hash is far larger than the processor's caches, so nearly every probe misses; in
+ * the window loop each miss stalls the loop, while in the tight loop over the staged events the home slots of
+ * all of them are loaded first (no load depends on another, so their misses overlap) and then probed in order.
+ * Because events are added in arrival order, every sum (even of non-integer weights) and every spill point is
+ * exactly what adding each event at once gives: spilled runs and sorted rows do not depend on the staging.
+ *
+ * Memory: the hash (16 bytes per slot, `capacity` slots at most), the sorted copy made at a spill (12 bytes per
+ * entry and orientation), kept from one spill to the next with its row and column scratch (8 bytes per row and
+ * per column), and 80 KiB of staging.
+ *
  * Weights reaching here are integers (harmonic weights are scaled, see windowWeights), so every sum is exact and
  * independent of the order in which pairs arrive, runs spill or partial counts merge.
  */
+import { KindredError } from '../errors.js';
 import { RunWriter } from './runs.js';
 
 const EMPTY_KEY = -1;
@@ -14,6 +26,10 @@ const EMPTY_KEY = -1;
 const DENSE_LIMIT = 2 ** 32;
 /** Load factor at which the hash grows or, at its capacity limit, spills. */
 const LOAD = 0.7;
+/** Packed keys row * nCols + col are exact doubles only below this. */
+const MAX_KEYS = 2 ** 53;
+/** Hash events staged before they are added to the hash (16 bytes each: the buffer stays in the L1/L2 cache). */
+const STAGE_EVENTS = 4096;
 
 export interface AccumulatorOptions {
   nRows: number;
@@ -53,9 +69,17 @@ export function denseBytes(denseSize: number, triangle: boolean): number {
   return 4 * (triangle ? (denseSize * (denseSize + 1)) / 2 : denseSize * denseSize);
 }
 
-function hashPair(row: number, col: number): number {
-  const h = (Math.imul(row, 0x9e3779b1) ^ Math.imul(col + 0x7f4a7c15, 0x85ebca77)) >>> 0;
-  return h ^ (h >>> 15);
+/**
+ * 32 well-mixed bits of a packed key (< 2^53): its low and high words combined, then the finalizer of
+ * MurmurHash3 (Appleby, "MurmurHash3", 2011: fmix32).
+ */
+function hashKey(key: number): number {
+  let h = (key >>> 0) ^ Math.imul((key / 4294967296) | 0, 0x27d4eb2f);
+  h ^= h >>> 16;
+  h = Math.imul(h, 0x85ebca6b);
+  h ^= h >>> 13;
+  h = Math.imul(h, 0xc2b2ae35);
+  return (h ^ (h >>> 16)) >>> 0;
 }
 
 export class PairAccumulator {
@@ -69,22 +93,52 @@ export class PairAccumulator {
   private slots: Float64Array;
   private mask: number;
   private limit: number;
-  size = 0;
+  /** Distinct entries in the hash (staged events not yet included). */
+  private entries = 0;
+  /** Hash events not yet added: [2e] key, [2e + 1] weight, in arrival order. */
+  private readonly stage = new Float64Array(2 * STAGE_EVENTS);
+  /** Numbers used in `stage` (twice the events staged). */
+  private staged = 0;
+  /** Scratch: the hashes of the staged events. */
+  private readonly hashes = new Uint32Array(STAGE_EVENTS);
+  /** Scratch of sortedHash, kept from one spill to the next: row starts and fill positions, columns, values. */
+  private spillRowStart: Float64Array | null = null;
+  private rowFill: Float64Array | null = null;
+  private spillCols: Uint32Array | null = null;
+  private spillValues: Float64Array | null = null;
+  /** Scratch of sortRowColumns: a value per column (null for very wide matrices). */
+  private colScratch: Float64Array | null = null;
+  /** Sum of the slots loaded ahead (kept so that those loads are not optimized away). */
+  private touched = 0;
   /** Pair events added, counted per orientation (a symmetric event counts twice). */
   pairs = 0;
   readonly runs: string[] = [];
 
   constructor(opts: AccumulatorOptions, private readonly spillFile: () => string) {
+    if (opts.nRows * opts.nCols > MAX_KEYS) {
+      throw new KindredError(
+        `contexts: ${opts.nRows} terms × ${opts.nCols} contexts exceed 2^53 pair keys; raise vocabulary.minCount or split the corpus`,
+      );
+    }
     this.D = opts.denseSize;
     this.nCols = opts.nCols;
     this.nRows = opts.nRows;
     this.triangle = opts.triangle;
     this.maxCapacity = opts.capacity;
     this.dense = new Uint32Array(denseBytes(this.D, this.triangle) / 4);
-    const cap = Math.min(1 << 20, opts.capacity);
+    // start at a quarter of the capacity, at most 2^20 slots, and double up to it: small inputs stay small (the
+    // size at which the hash spills, and so every run, is that of a table starting at 2^20 or the capacity)
+    let cap = Math.min(1 << 20, opts.capacity);
+    while (cap % 2 === 0 && cap / 2 >= 16 && cap * 4 > opts.capacity) cap /= 2;
     this.slots = new Float64Array(2 * cap).fill(EMPTY_KEY);
     this.mask = cap - 1;
     this.limit = Math.floor(cap * LOAD);
+  }
+
+  /** Distinct pairs held in the hash. Staged events are added first (which may spill, as adding them at once would have). */
+  get size(): number {
+    this.drain();
+    return this.entries;
   }
 
   /**
@@ -96,10 +150,9 @@ export class PairAccumulator {
     const dense = this.dense;
     let events = 0;
     if (direction === 'symmetric' && this.triangle) {
-      // the hot loop of the build: the hash probe is written out here rather than called
+      // the hot loop of the build: staging a hash event is written out here rather than called
       const nCols = this.nCols;
-      let slots = this.slots;
-      let mask = this.mask;
+      const stage = this.stage;
       for (let i = 0; i < length; i++) {
         const a = ids[i];
         if (a < 0) continue;
@@ -120,25 +173,12 @@ export class PairAccumulator {
             }
             this.overflow(cell, v, lo, hi);
           } else {
-            const key = lo * nCols + hi;
-            let s = hashPair(lo, hi) & mask;
-            for (;;) {
-              const found = slots[2 * s];
-              if (found === key) {
-                slots[2 * s + 1] += w;
-                break;
-              }
-              if (found === EMPTY_KEY) {
-                slots[2 * s] = key;
-                slots[2 * s + 1] = w;
-                if (++this.size >= this.limit) this.makeRoom();
-                break;
-              }
-              s = (s + 1) & mask;
-            }
+            const n = this.staged;
+            stage[n] = lo * nCols + hi;
+            stage[n + 1] = w;
+            this.staged = n + 2;
+            if (n + 2 === 2 * STAGE_EVENTS) this.drain();
           }
-          slots = this.slots;
-          mask = this.mask;
         }
       }
       this.pairs += 2 * events;
@@ -192,23 +232,60 @@ export class PairAccumulator {
     this.hashAdd(row, col, sum);
   }
 
+  /** Stages w for the entry (row, col). */
   private hashAdd(row: number, col: number, w: number): void {
-    const key = row * this.nCols + col;
-    const slots = this.slots;
-    const mask = this.mask;
-    let i = hashPair(row, col) & mask;
-    for (;;) {
-      const k = slots[2 * i];
-      if (k === key) {
-        slots[2 * i + 1] += w;
-        return;
+    const n = this.staged;
+    this.stage[n] = row * this.nCols + col;
+    this.stage[n + 1] = w;
+    this.staged = n + 2;
+    if (n + 2 === 2 * STAGE_EVENTS) this.drain();
+  }
+
+  /**
+   * Adds the staged events to the hash in arrival order. The first pass hashes them and loads each one's home
+   * slot: those loads are independent, so their cache misses overlap; the second pass probes from the cache.
+   */
+  private drain(): void {
+    const n = this.staged;
+    if (n === 0) return;
+    const stage = this.stage;
+    const hashes = this.hashes;
+    let slots = this.slots;
+    let mask = this.mask;
+    const events = n >> 1;
+    for (let e = 0; e < events; e++) hashes[e] = hashKey(stage[2 * e]);
+    let touched = 0;
+    for (let e = 0; e < events; e++) touched += slots[2 * (hashes[e] & mask)];
+    this.touched = touched;
+    let entries = this.entries;
+    let limit = this.limit;
+    for (let o = 0, e = 0; o < n; o += 2, e++) {
+      const key = stage[o];
+      let i = hashes[e] & mask;
+      for (;;) {
+        const found = slots[2 * i];
+        if (found === key) {
+          slots[2 * i + 1] += stage[o + 1];
+          break;
+        }
+        if (found === EMPTY_KEY) {
+          slots[2 * i] = key;
+          slots[2 * i + 1] = stage[o + 1];
+          if (++entries >= limit) {
+            this.entries = entries;
+            this.makeRoom();
+            slots = this.slots;
+            mask = this.mask;
+            limit = this.limit;
+            entries = this.entries;
+          }
+          break;
+        }
+        i = (i + 1) & mask;
       }
-      if (k === EMPTY_KEY) break;
-      i = (i + 1) & mask;
     }
-    slots[2 * i] = key;
-    slots[2 * i + 1] = w;
-    if (++this.size >= this.limit) this.makeRoom();
+    this.entries = entries;
+    this.staged = 0;
   }
 
   /** At the load limit: grow while under the capacity limit, else spill a run. */
@@ -220,30 +297,37 @@ export class PairAccumulator {
   private grow(): void {
     const old = this.slots;
     const cap = old.length; // twice the old slot count
-    this.slots = new Float64Array(2 * cap).fill(EMPTY_KEY);
-    this.mask = cap - 1;
-    this.limit = Math.floor(cap * LOAD);
-    const nCols = this.nCols;
+    const slots = new Float64Array(2 * cap).fill(EMPTY_KEY);
+    const mask = cap - 1;
     for (let s = 0; s < old.length; s += 2) {
       const key = old[s];
       if (key === EMPTY_KEY) continue;
-      const row = Math.floor(key / nCols);
-      let i = hashPair(row, key - row * nCols) & this.mask;
-      while (this.slots[2 * i] !== EMPTY_KEY) i = (i + 1) & this.mask;
-      this.slots[2 * i] = key;
-      this.slots[2 * i + 1] = old[s + 1];
+      let i = hashKey(key) & mask;
+      while (slots[2 * i] !== EMPTY_KEY) i = (i + 1) & mask;
+      slots[2 * i] = key;
+      slots[2 * i + 1] = old[s + 1];
     }
+    this.slots = slots;
+    this.mask = mask;
+    this.limit = Math.floor(cap * LOAD);
   }
 
   /**
    * The hash entries in both orientations, sorted by (row, col), as compressed sparse rows: a counting sort
-   * by row, then each row's columns sorted on their own (values follow through a per-column scratch array),
-   * which is much faster than one sort of packed keys and needs no second probe of the hash.
+   * by row, then each row's columns sorted on their own, which is much faster than one sort of packed keys and
+   * needs no second probe of the hash. For a spill the arrays are the accumulator's own, reused from one spill
+   * to the next (fresh memory is slow to touch for the first time); for the handover they are new.
    */
-  private sortedHash(): SortedRows {
+  private sortedHash(forSpill: boolean): SortedRows {
     const { nCols, nRows, triangle } = this;
     const slots = this.slots;
-    const rowStart = new Float64Array(nRows + 1);
+    let rowStart: Float64Array;
+    if (forSpill) {
+      this.spillRowStart ??= new Float64Array(nRows + 1);
+      rowStart = this.spillRowStart.fill(0);
+    } else {
+      rowStart = new Float64Array(nRows + 1);
+    }
     for (let s = 0; s < slots.length; s += 2) {
       const key = slots[s];
       if (key === EMPTY_KEY) continue;
@@ -256,9 +340,24 @@ export class PairAccumulator {
     }
     for (let r = 0; r < nRows; r++) rowStart[r + 1] += rowStart[r];
     const n = rowStart[nRows];
-    const cols = new Uint32Array(n);
-    const values = new Float64Array(n);
-    const fill = rowStart.slice(0, nRows);
+    let cols: Uint32Array;
+    let values: Float64Array;
+    if (forSpill) {
+      if (this.spillCols === null || this.spillCols.length < n) {
+        // every spill holds about as many entries: room for the most a full hash can give (both orientations)
+        const room = Math.max(n, 2 * Math.floor(this.maxCapacity * LOAD));
+        this.spillCols = new Uint32Array(room);
+        this.spillValues = new Float64Array(room);
+      }
+      cols = this.spillCols.subarray(0, n);
+      values = this.spillValues!.subarray(0, n);
+    } else {
+      cols = new Uint32Array(n);
+      values = new Float64Array(n);
+    }
+    this.rowFill ??= new Float64Array(nRows);
+    const fill = this.rowFill;
+    fill.set(rowStart.subarray(0, nRows));
     for (let s = 0; s < slots.length; s += 2) {
       const key = slots[s];
       if (key === EMPTY_KEY) continue;
@@ -277,20 +376,21 @@ export class PairAccumulator {
         values[fill[col]++] = v;
       }
     }
-    sortRowColumns(rowStart, cols, values, nRows, nCols);
+    if (nCols <= 1 << 24) this.colScratch ??= new Float64Array(nCols);
+    sortRowColumns(rowStart, cols, values, nRows, this.colScratch);
     return { rowStart, cols, values };
   }
 
   private clearHash(): void {
     this.slots.fill(EMPTY_KEY);
-    this.size = 0;
+    this.entries = 0;
   }
 
   /** Writes the hash entries as a sorted run and empties the hash. */
   private spill(): void {
     const file = this.spillFile();
     const writer = new RunWriter(file);
-    const { rowStart, cols, values } = this.sortedHash();
+    const { rowStart, cols, values } = this.sortedHash(true);
     for (let r = 0; r < this.nRows; r++) {
       for (let p = rowStart[r]; p < rowStart[r + 1]; p++) writer.append(r, cols[p], values[p]);
     }
@@ -301,25 +401,47 @@ export class PairAccumulator {
 
   /** Hands over everything accumulated; when runs were spilled, the rest is spilled too, so memory stays bounded. */
   finish(): AccumulatorHandover {
-    if (this.runs.length > 0 && this.size > 0) this.spill();
-    const rows: SortedRows = this.size === 0
+    this.drain();
+    if (this.runs.length > 0 && this.entries > 0) this.spill();
+    const rows: SortedRows = this.entries === 0
       ? { rowStart: new Float64Array(this.nRows + 1), cols: new Uint32Array(0), values: new Float64Array(0) }
-      : this.sortedHash();
+      : this.sortedHash(false);
     this.slots = new Float64Array(0);
-    this.size = 0;
+    this.entries = 0;
+    this.spillRowStart = this.rowFill = this.colScratch = this.spillValues = null;
+    this.spillCols = null;
     return { denseSize: this.D, triangle: this.triangle, dense: this.dense, ...rows, runs: this.runs.slice() };
   }
 }
 
-/** Sorts the columns of each row in place, values alongside. */
-function sortRowColumns(rowStart: Float64Array, cols: Uint32Array, values: Float64Array, nRows: number, nCols: number): void {
-  // Values are parked by column in a scratch array while the row's columns are sorted natively; for very wide
-  // matrices (document contexts over huge corpora) a packed (col, position) sort is used instead.
-  const scratch = nCols <= 1 << 24 ? new Float64Array(nCols) : null;
+/** Rows this short are sorted by insertion, values moving with their columns. */
+const SHORT_ROW = 16;
+
+/**
+ * Sorts the columns of each row in place, values alongside. Short rows by insertion; longer ones natively, the
+ * values parked by column in `scratch` meanwhile, or, for very wide matrices (document contexts over huge
+ * corpora; scratch null), through a packed (col, position) sort.
+ */
+function sortRowColumns(rowStart: Float64Array, cols: Uint32Array, values: Float64Array, nRows: number, scratch: Float64Array | null): void {
   for (let r = 0; r < nRows; r++) {
     const a = rowStart[r];
     const b = rowStart[r + 1];
     if (b - a < 2) continue;
+    if (b - a <= SHORT_ROW) {
+      for (let p = a + 1; p < b; p++) {
+        const c = cols[p];
+        const v = values[p];
+        let q = p - 1;
+        while (q >= a && cols[q] > c) {
+          cols[q + 1] = cols[q];
+          values[q + 1] = values[q];
+          q--;
+        }
+        cols[q + 1] = c;
+        values[q + 1] = v;
+      }
+      continue;
+    }
     const seg = cols.subarray(a, b);
     if (scratch !== null) {
       for (let p = a; p < b; p++) scratch[cols[p]] = values[p];
