@@ -16,6 +16,7 @@ import path from 'node:path';
 import { fileURLToPath, pathToFileURL } from 'node:url';
 import { parseArgs } from 'node:util';
 import { gzipSync } from 'node:zlib';
+import { mulberry32 } from './random.mjs';
 
 export const GENERATOR = 'kindred-demo-corpus';
 export const DEFAULT_SEED = 42;
@@ -30,17 +31,6 @@ const SHOP = 'Bramblewick Outfitters';
 // ---------------------------------------------------------------------------------------------
 // Seeded PRNG: mulberry32 (a small 32-bit generator, common practice, no source); one stream per
 // run, consumed in a fixed order, so output depends only on (seed, docs).
-
-function mulberry32(seed) {
-  let a = seed >>> 0;
-  return function next() {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 class Random {
   constructor(seed) {

@@ -16,21 +16,12 @@ import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
+import { mulberry32 } from '../random.mjs';
 
 const here = path.dirname(fileURLToPath(import.meta.url));
 const root = path.resolve(here, '..', '..');
 const dist = (p) => path.join(root, 'dist', p);
-
-function random(seed) {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
+const random = mulberry32;
 
 /** Writes a synthetic weighted matrix of nRows × nRows as `parts` Arrow shards; returns the part records. */
 async function writeSyntheticShards(dir, nRows, parts, seed = 1) {

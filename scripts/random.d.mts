@@ -1,0 +1,1 @@
+export function mulberry32(seed: number): () => number;
