@@ -264,5 +264,6 @@ export function transferablesOf(partial: VocabularyPartial | PairsPartial): Arra
   const arrays = 'terms' in partial
     ? [partial.terms.arena, partial.terms.offsets, partial.counts, partial.docFreqs]
     : [partial.dense, partial.rowStart, partial.cols, partial.values];
-  return arrays.map((a) => a.buffer as ArrayBuffer).filter((b, i, all) => b.byteLength > 0 && all.indexOf(b) === i);
+  // shared memory (the accumulator's handover) is shared by postMessage itself, not transferred
+  return arrays.map((a) => a.buffer).filter((b, i, all): b is ArrayBuffer => b instanceof ArrayBuffer && b.byteLength > 0 && all.indexOf(b) === i);
 }

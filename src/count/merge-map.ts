@@ -19,7 +19,7 @@ export interface MergeSetup {
   dense: { blocks: Uint32Array[]; size: number; triangle: boolean } | null;
 }
 
-/** Compressed sparse rows of one part's rows (rowStart rebased to 0). */
+/** A thread's rows, all of them (shared memory): the task reads its part's rows. */
 export interface RowsSlice {
   rowStart: Float64Array;
   cols: Uint32Array;
@@ -30,7 +30,7 @@ export interface MergeTask {
   file: string;
   firstRow: number;
   endRow: number;
-  /** Each thread's in-memory rows of this part. */
+  /** Each thread's in-memory rows. */
   rows: RowsSlice[];
 }
 
@@ -49,7 +49,7 @@ export class MergeMapper {
   async run(task: MergeTask, onProgress: (parts: number) => void): Promise<MergeResult> {
     const { nCols, scale, runs, bufferRecords, dense } = this.setup;
     const { firstRow, endRow } = task;
-    const sources: RowWiseSource[] = task.rows.map((s) => new RowsRowSource(s.rowStart, s.cols, s.values, firstRow));
+    const sources: RowWiseSource[] = task.rows.map((s) => new RowsRowSource(s.rowStart, s.cols, s.values));
     if (dense !== null && firstRow < dense.size) sources.push(new DenseRowSource(dense.blocks, dense.size, dense.triangle));
     for (const f of runs) sources.push(new SortedRowSource(new RunReader(f, bufferRecords, firstRow)));
     const rowSums = new Float64Array(endRow - firstRow);

@@ -125,7 +125,8 @@ export class PairAccumulator {
     this.nRows = opts.nRows;
     this.triangle = opts.triangle;
     this.maxCapacity = opts.capacity;
-    this.dense = new Uint32Array(denseBytes(this.D, this.triangle) / 4);
+    // shared memory: the merge threads read the dense block (and the handed-over rows) without a copy
+    this.dense = new Uint32Array(new SharedArrayBuffer(denseBytes(this.D, this.triangle)));
     // start at a quarter of the capacity, at most 2^20 slots, and double up to it: small inputs stay small (the
     // size at which the hash spills, and so every run, is that of a table starting at 2^20 or the capacity)
     let cap = Math.min(1 << 20, opts.capacity);
@@ -316,7 +317,8 @@ export class PairAccumulator {
    * The hash entries in both orientations, sorted by (row, col), as compressed sparse rows: a counting sort
    * by row, then each row's columns sorted on their own, which is much faster than one sort of packed keys and
    * needs no second probe of the hash. For a spill the arrays are the accumulator's own, reused from one spill
-   * to the next (fresh memory is slow to touch for the first time); for the handover they are new.
+   * to the next (fresh memory is slow to touch for the first time); for the handover they are new, in shared
+   * memory, so the threads that merge them read them where they are.
    */
   private sortedHash(forSpill: boolean): SortedRows {
     const { nCols, nRows, triangle } = this;
@@ -326,7 +328,7 @@ export class PairAccumulator {
       this.spillRowStart ??= new Float64Array(nRows + 1);
       rowStart = this.spillRowStart.fill(0);
     } else {
-      rowStart = new Float64Array(nRows + 1);
+      rowStart = new Float64Array(new SharedArrayBuffer(8 * (nRows + 1)));
     }
     for (let s = 0; s < slots.length; s += 2) {
       const key = slots[s];
@@ -352,8 +354,8 @@ export class PairAccumulator {
       cols = this.spillCols.subarray(0, n);
       values = this.spillValues!.subarray(0, n);
     } else {
-      cols = new Uint32Array(n);
-      values = new Float64Array(n);
+      cols = new Uint32Array(new SharedArrayBuffer(4 * n));
+      values = new Float64Array(new SharedArrayBuffer(8 * n));
     }
     this.rowFill ??= new Float64Array(nRows);
     const fill = this.rowFill;

@@ -11,7 +11,7 @@ import type { Vocabulary } from '../store/vocab-file.js';
 import { planAccumulators, windowWeights } from './cooccur.js';
 import {
   RowsSource, DenseSource, RunReader, mergeSources, type SortedSource,
-  MAX_ROW_WISE_COLUMNS, sliceRows,
+  MAX_ROW_WISE_COLUMNS,
 } from './runs.js';
 import type { MergeTask } from './merge-map.js';
 import { TermTable, compareBytes, type TermBytes } from './term-table.js';
@@ -200,13 +200,13 @@ export async function countPairs(
   const partFile = (i: number): string => path.join(workDir, 'counts', partFileName(i));
   let entries: number[];
   if (nCols <= MAX_ROW_WISE_COLUMNS) {
-    // row by row, one part per task on the threads: each row's entries summed in a dense scratch row
+    // row by row, one part per task on the threads: each row's entries summed in a dense scratch row; the
+    // threads' rows and dense blocks are in shared memory, so every task reads them without a copy
     const tasks: MergeTask[] = ranges.map((r, i) => ({
       file: partFile(i), firstRow: r.firstRow, endRow: r.endRow,
-      rows: run.partials.map((p) => sliceRows(p.rowStart, p.cols, p.values, r.firstRow, r.endRow)),
+      rows: run.partials.map((p) => ({ rowStart: p.rowStart, cols: p.cols, values: p.values })),
     }));
     const dense = first.denseSize > 0 ? { blocks: run.partials.map((p) => p.dense), size: first.denseSize, triangle: first.triangle } : null;
-    run.partials.length = 0; // the slices hold what the merge needs; let the partials go
     const merged = await runMap('merge', () => ({ nCols, scale, runs, bufferRecords, dense }), tasks, exec.workers);
     // sums of integers (scaled weights) are exact, so adding the parts' column sums in any order gives the same bits
     for (const [i, m] of merged.results.entries()) {

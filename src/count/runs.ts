@@ -285,28 +285,15 @@ export class RowAccumulator {
   }
 }
 
-/** Compressed sparse rows in memory as a row-wise source; rowStart[i] belongs to row firstRow + i. */
+/** Compressed sparse rows in memory as a row-wise source. */
 export class RowsRowSource implements RowWiseSource {
-  constructor(
-    private readonly rowStart: Float64Array, private readonly cols: Uint32Array, private readonly values: Float64Array,
-    private readonly firstRow = 0,
-  ) {}
+  constructor(private readonly rowStart: Float64Array, private readonly cols: Uint32Array, private readonly values: Float64Array) {}
 
   addRow(r: number, acc: RowAccumulator): void {
     const { cols, values } = this;
-    const i = r - this.firstRow;
-    const end = this.rowStart[i + 1];
-    for (let p = this.rowStart[i]; p < end; p++) acc.add(cols[p], values[p]);
+    const end = this.rowStart[r + 1];
+    for (let p = this.rowStart[r]; p < end; p++) acc.add(cols[p], values[p]);
   }
-}
-
-/** Rows [firstRow, endRow) of compressed sparse rows, copied out (rowStart rebased to 0). */
-export function sliceRows(rowStart: Float64Array, cols: Uint32Array, values: Float64Array, firstRow: number, endRow: number): { rowStart: Float64Array; cols: Uint32Array; values: Float64Array } {
-  const base = rowStart[firstRow];
-  const end = rowStart[endRow];
-  const starts = new Float64Array(endRow - firstRow + 1);
-  for (let i = 0; i < starts.length; i++) starts[i] = rowStart[firstRow + i] - base;
-  return { rowStart: starts, cols: cols.slice(base, end), values: values.slice(base, end) };
 }
 
 /** Dense blocks (summed cell by cell) as a row-wise source; triangles as in DenseSource. */

@@ -52,12 +52,6 @@ export function transferablesOf(partial: AnyPartial): ArrayBuffer[] {
   return [];
 }
 
-/** Typed arrays a task hands to its thread for good (moved, not copied). */
-export function taskTransferables(kind: MapKind, task: unknown): ArrayBuffer[] {
-  if (kind !== 'merge') return [];
-  return (task as MergeTask).rows.flatMap((r) => [r.rowStart.buffer, r.cols.buffer, r.values.buffer] as ArrayBuffer[]).filter((b) => b.byteLength > 0);
-}
-
 /** Typed arrays of a task result worth moving back rather than copying. */
 export function resultTransferables(result: unknown): ArrayBuffer[] {
   const r = result as Partial<MergeResult>;

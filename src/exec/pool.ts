@@ -10,7 +10,7 @@ import os from 'node:os';
 import { fileURLToPath } from 'node:url';
 import { Worker } from 'node:worker_threads';
 import { KindredError } from '../errors.js';
-import { createMapper, taskTransferables, type MapKind, type MapKinds } from './handlers.js';
+import { createMapper, type MapKind, type MapKinds } from './handlers.js';
 import type { FromWorker, ToWorker } from './protocol.js';
 
 export interface MapRun<K extends MapKind> {
@@ -123,7 +123,7 @@ function runOnThreads<K extends MapKind>(
     const dispatch = (w: Worker): void => {
       if (next < tasks.length) {
         const index = next++;
-        send(w, { type: 'task', index, task: tasks[index] }, taskTransferables(kind, tasks[index]));
+        send(w, { type: 'task', index, task: tasks[index] });
       } else {
         send(w, { type: 'finish' });
       }
