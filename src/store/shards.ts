@@ -26,6 +26,8 @@ export class ShardWriter {
   private rows = new Uint32Array(BATCH_ENTRIES);
   private cols = new Uint32Array(BATCH_ENTRIES);
   private values: Float64Array = new Float64Array(BATCH_ENTRIES);
+  /** The float32 copy of a batch's values, for float32 shards. */
+  private values32: Float32Array | null = null;
   private fill = 0;
   entries = 0;
 
@@ -75,11 +77,20 @@ export class ShardWriter {
     this.fill = 0;
   }
 
+  /**
+   * The batch's columns as views of the writer's own arrays, not copies: the sink writes each batch into the file
+   * before write() returns, so the arrays are free for the next batch (fresh memory is slow to touch).
+   */
   private children(n: number): Data[] {
-    const values = this.valueType === 'float32' ? Float32Array.from(this.values.subarray(0, n)) : this.values.slice(0, n);
+    let values: Float32Array | Float64Array = this.values.subarray(0, n);
+    if (this.valueType === 'float32') {
+      this.values32 ??= new Float32Array(BATCH_ENTRIES);
+      this.values32.set(values);
+      values = this.values32.subarray(0, n);
+    }
     return [
-      makeData({ type: new Uint32(), length: n, nullCount: 0, data: this.rows.slice(0, n) }),
-      makeData({ type: new Uint32(), length: n, nullCount: 0, data: this.cols.slice(0, n) }),
+      makeData({ type: new Uint32(), length: n, nullCount: 0, data: this.rows.subarray(0, n) }),
+      makeData({ type: new Uint32(), length: n, nullCount: 0, data: this.cols.subarray(0, n) }),
       makeData({ type: this.valueType === 'float32' ? new Float32() : new Float64(), length: n, nullCount: 0, data: values }),
     ];
   }
@@ -185,6 +196,7 @@ function concatU32(a: Uint32Array, b: Uint32Array): Uint32Array {
 }
 
 function concatF64(a: Float64Array, b: Float32Array | Float64Array): Float64Array {
+  if (a.length === 0 && b instanceof Float64Array) return b;
   const out = new Float64Array(a.length + b.length);
   out.set(a);
   out.set(b, a.length);
@@ -201,5 +213,6 @@ function toRowBlock(file: string, rows: Uint32Array, cols: Uint32Array, values: 
   const indptr = new Uint32Array(last - start + 2);
   for (let i = 0; i < rows.length; i++) indptr[rows[i] - start + 1]++;
   for (let r = 0; r < last - start + 1; r++) indptr[r + 1] += indptr[r];
-  return { firstRow: start, indptr, cols: cols.slice(), values: values.slice() };
+  // views, not copies: every batch the reader yields is fresh memory, and the weighting never writes its input
+  return { firstRow: start, indptr, cols, values };
 }
