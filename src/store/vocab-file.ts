@@ -1,4 +1,5 @@
-import { Table, makeVector, vectorFromArray, Utf8, RecordBatchFileWriter } from './arrow.js';
+import { Table, makeVector, RecordBatchFileWriter } from './arrow.js';
+import { utf8Data } from './arrow-sink.js';
 import { writeFileAtomic } from './atomic.js';
 import { readArrowTable } from './shards.js';
 import { KindredError } from '../errors.js';
@@ -21,7 +22,7 @@ export async function writeVocabulary(file: string, vocab: Vocabulary): Promise<
   }
   const table = new Table({
     id: makeVector(ids),
-    term: vectorFromArray(vocab.terms, new Utf8()),
+    term: makeVector(utf8Data(vocab.terms)),
     count: makeVector(counts),
     doc_freq: makeVector(vocab.docFreqs),
   });
