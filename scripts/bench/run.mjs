@@ -55,7 +55,11 @@ function timed(label, cmd, args, env = process.env) {
   const wall = /Elapsed \(wall clock\) time \(h:mm:ss or m:ss\): (?:(\d+):)?(\d+):([\d.]+)/.exec(err);
   const rss = /Maximum resident set size \(kbytes\): (\d+)/.exec(err);
   const seconds = wall ? Number(wall[1] ?? 0) * 3600 + Number(wall[2]) * 60 + Number(wall[3]) : NaN;
-  if (r.status !== 0) process.stderr.write(`bench: ${label} failed (status ${r.status}):\n${err.split('\n').slice(-15).join('\n')}\n`);
+  if (r.status !== 0) {
+    // the program's own last lines, before GNU time's report
+    const own = err.split('\tCommand being timed:')[0].trimEnd().split('\n').slice(-15).join('\n');
+    process.stderr.write(`bench: ${label} failed (status ${r.status}):\n${own}\n`);
+  }
   return { seconds, rssMiB: rss ? Number(rss[1]) / 1024 : NaN, status: r.status, stdout: r.stdout ?? '' };
 }
 
