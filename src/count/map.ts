@@ -5,7 +5,7 @@
  * - pairs: co-occurrence weights of splits keyed by final term ids, in a bounded accumulator that spills.
  * A mapper keeps one accumulator across all the tasks it runs and hands it over once, at finish.
  */
-import { statSync } from 'node:fs';
+import { rmSync, statSync } from 'node:fs';
 import path from 'node:path';
 import type { ContextsConfig, InputConfig, TokenizeConfig } from '../config/types.js';
 import { readSplit, type DocumentSink, type InputSplit } from '../ingest/split.js';
@@ -252,6 +252,8 @@ export class PairsMapper {
       reported = now;
     });
     if (reported < splitBytes) onProgress(splitBytes - reported);
+    // read once: gone at once, so the streams' disk is free before the spilled runs reach their peak
+    rmSync(stream.file, { force: true });
   }
 
   finish(): PairsPartial {
