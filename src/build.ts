@@ -188,7 +188,7 @@ export async function runBuild(loaded: LoadedConfig, opts: BuildOptions): Promis
     await area.clearTemporary();
     await area.create();
     // one set of worker threads serves every pass of the build
-    return await withThreadPool(() => buildAndPublish(loaded, opts, area, progress, notify));
+    return await withThreadPool(() => buildAndPublish(loaded, opts, area, progress, notify), resolveWorkers(loaded.config.workers));
   } catch (e) {
     throw asUserError(e, area.tmpDir);
   } finally {

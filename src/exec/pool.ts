@@ -46,12 +46,26 @@ class ThreadPool {
 
   take(n: number, file: string): Worker[] {
     const out = this.idle.splice(0, n);
-    while (out.length < n) {
-      const w = new Worker(file);
-      this.all.add(w);
-      out.push(w);
-    }
+    while (out.length < n) out.push(this.start(file));
     return out;
+  }
+
+  /** Starts n threads ahead of the first run, so their start-up overlaps the work before it. */
+  prestart(n: number, file: string): void {
+    while (this.all.size < n) this.idle.push(this.start(file));
+  }
+
+  private start(file: string): Worker {
+    const w = new Worker(file);
+    this.all.add(w);
+    // a thread that dies while idle is dropped; while in a run, the run's own listeners report it
+    w.on('error', () => undefined);
+    w.once('exit', () => {
+      this.all.delete(w);
+      const i = this.idle.indexOf(w);
+      if (i >= 0) this.idle.splice(i, 1);
+    });
+    return w;
   }
 
   give(w: Worker): void {
@@ -67,9 +81,14 @@ class ThreadPool {
 
 const pools = new AsyncLocalStorage<ThreadPool>();
 
-/** Runs fn with one pool of threads shared by every runMap inside it; the threads end with it. */
-export async function withThreadPool<T>(fn: () => Promise<T>): Promise<T> {
+/**
+ * Runs fn with one pool of threads shared by every runMap inside it; the threads end with it. `prestart` threads
+ * are started at once (none when the work runs in the calling thread).
+ */
+export async function withThreadPool<T>(fn: () => Promise<T>, prestart = 0): Promise<T> {
   const pool = new ThreadPool();
+  const file = workerFile();
+  if (prestart > 1 && file !== null) pool.prestart(prestart, file);
   try {
     return await pools.run(pool, fn);
   } finally {
