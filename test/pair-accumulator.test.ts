@@ -116,6 +116,16 @@ function handedOver(h: AccumulatorHandover, nCols: number): Map<number, number> 
       if (v !== 0) addTo(m, cell(r, c, nCols), v);
     }
   }
+  // the band: unordered pairs (lo, hi), lo < bandRows, both orientations
+  for (let lo = 0; lo < h.bandRows; lo++) {
+    for (let hi = 0; hi < nCols; hi++) {
+      const v = h.band[lo * nCols + hi];
+      if (v !== 0) {
+        addTo(m, cell(lo, hi, nCols), v);
+        addTo(m, cell(hi, lo, nCols), v);
+      }
+    }
+  }
   for (const [row, col, v] of rowsOf(h)) addTo(m, cell(row, col, nCols), v);
   for (const run of h.runs) for (const [row, col, v] of readRun(run)) addTo(m, cell(row, col, nCols), v);
   return m;
@@ -138,6 +148,7 @@ function readRun(file: string): [number, number, number][] {
 interface Setup {
   nCols: number;
   denseSize: number;
+  bandRows?: number;
   capacity: number;
   triangle: boolean;
 }
@@ -150,6 +161,7 @@ class OneTable {
   readonly runs: [number, number, number][][] = [];
   private hash = new Map<number, number>();
   private readonly dense = new Map<number, number>();
+  private readonly band = new Map<number, number>();
   private readonly spillAt: number;
 
   constructor(private readonly s: Setup) {
@@ -161,15 +173,15 @@ class OneTable {
     const { denseSize: D, nCols, triangle } = this.s;
     const lo = triangle ? Math.min(row, col) : row;
     const hi = triangle ? Math.max(row, col) : col;
-    if (lo < D && hi < D) {
-      // dense cells are uint32: a sum that would reach 2^32 moves to the hash
-      const key = cell(lo, hi, nCols);
-      const v = (this.dense.get(key) ?? 0) + w;
+    // dense and band cells are uint32: a sum that would reach 2^32 moves to the hash
+    const cells = lo < D && hi < D ? this.dense : triangle && lo < (this.s.bandRows ?? 0) ? this.band : null;
+    if (cells !== null) {
+      const v = (cells.get(cell(lo, hi, nCols)) ?? 0) + w;
       if (v < 2 ** 32) {
-        this.dense.set(key, v);
+        cells.set(cell(lo, hi, nCols), v);
         return;
       }
-      this.dense.set(key, 0);
+      cells.set(cell(lo, hi, nCols), 0);
       w = v;
     }
     const key = cell(lo, hi, nCols);
@@ -232,21 +244,23 @@ function check(h: AccumulatorHandover, one: OneTable, reference: Map<number, num
 }
 
 describe('PairAccumulator against counting by definition (common practice, no source)', () => {
-  const cases: { direction: Direction; harmonic: boolean; denseSize: number; capacity: number }[] = [
+  const cases: { direction: Direction; harmonic: boolean; denseSize: number; capacity: number; bandRows?: number }[] = [
     { direction: 'symmetric', harmonic: true, denseSize: 64, capacity: 1024 },
+    { direction: 'symmetric', harmonic: true, denseSize: 64, capacity: 1024, bandRows: 16 },
+    { direction: 'symmetric', harmonic: false, denseSize: 8, capacity: 2048, bandRows: 8 },
     { direction: 'symmetric', harmonic: false, denseSize: 0, capacity: 4096 },
     { direction: 'left', harmonic: true, denseSize: 32, capacity: 1024 },
     { direction: 'right', harmonic: false, denseSize: 16, capacity: 2048 },
   ];
   for (const c of cases) {
-    it(`${c.direction} window, ${c.harmonic ? 'harmonic' : 'uniform'}, dense ${c.denseSize}, capacity ${c.capacity}: counts, runs and rows match`, () => {
+    it(`${c.direction} window, ${c.harmonic ? 'harmonic' : 'uniform'}, dense ${c.denseSize}, band ${c.bandRows ?? 0}, capacity ${c.capacity}: counts, runs and rows match`, () => {
       const nTerms = 3000;
       const k = 5;
       const triangle = c.direction === 'symmetric';
       const weights = integerWeights(k, c.harmonic);
       const docs = zipfDocuments(11 + c.capacity + c.denseSize, 200, 400, nTerms, 0.05);
-      const acc = new PairAccumulator({ nRows: nTerms, nCols: nTerms, denseSize: c.denseSize, triangle, capacity: c.capacity }, spillFile);
-      const one = new OneTable({ nCols: nTerms, denseSize: c.denseSize, capacity: c.capacity, triangle });
+      const acc = new PairAccumulator({ nRows: nTerms, nCols: nTerms, denseSize: c.denseSize, triangle, capacity: c.capacity, bandRows: c.bandRows }, spillFile);
+      const one = new OneTable({ nCols: nTerms, denseSize: c.denseSize, capacity: c.capacity, triangle, bandRows: c.bandRows });
       const reference = new Map<number, number>();
       let events = 0;
       for (const doc of docs) {

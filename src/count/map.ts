@@ -135,6 +135,7 @@ export interface PairsSetup extends ReadSetup {
   contexts: ContextsConfig;
   nCols: number;
   denseSize: number;
+  bandRows: number;
   /** Hash slots of the accumulator before it spills. */
   capacity: number;
   spillDir: string;
@@ -174,7 +175,7 @@ export class PairsMapper {
     this.weights = windowWeights(ctx).weights;
     let runs = 0;
     this.acc = new PairAccumulator(
-      { nRows: setup.vocabulary.offsets.length - 1, nCols: setup.nCols, denseSize: setup.denseSize, triangle: ctx.type === 'window' && ctx.direction === 'symmetric', capacity: setup.capacity },
+      { nRows: setup.vocabulary.offsets.length - 1, nCols: setup.nCols, denseSize: setup.denseSize, triangle: ctx.type === 'window' && ctx.direction === 'symmetric', capacity: setup.capacity, bandRows: setup.bandRows },
       () => path.join(setup.spillDir, `m${String(setup.mapper).padStart(3, '0')}-run-${String(runs++).padStart(5, '0')}.bin`),
     );
     const push: TokenSink = (bytes, start, end, hash) => {

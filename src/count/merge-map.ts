@@ -6,7 +6,7 @@
  */
 import { ShardWriter } from '../store/shards.js';
 import {
-  DenseRowSource, RowsRowSource, RunReader, SortedRowSource, mergeRowWise, type RowWiseSource,
+  BandRowSource, DenseRowSource, RowsRowSource, RunReader, SortedRowSource, mergeRowWise, type RowWiseSource,
 } from './runs.js';
 
 export interface MergeSetup {
@@ -17,6 +17,8 @@ export interface MergeSetup {
   bufferRecords: number;
   /** The threads' dense blocks (summed cell by cell), or null. */
   dense: { blocks: Uint32Array[]; size: number; triangle: boolean } | null;
+  /** The threads' dense bands (summed cell by cell), or null. */
+  band: { blocks: Uint32Array[]; rows: number; denseSize: number } | null;
 }
 
 /** A thread's rows, all of them (shared memory): the task reads its part's rows. */
@@ -47,10 +49,11 @@ export class MergeMapper {
   constructor(private readonly setup: MergeSetup) {}
 
   async run(task: MergeTask, onProgress: (parts: number) => void): Promise<MergeResult> {
-    const { nCols, scale, runs, bufferRecords, dense } = this.setup;
+    const { nCols, scale, runs, bufferRecords, dense, band } = this.setup;
     const { firstRow, endRow } = task;
     const sources: RowWiseSource[] = task.rows.map((s) => new RowsRowSource(s.rowStart, s.cols, s.values));
     if (dense !== null && firstRow < dense.size) sources.push(new DenseRowSource(dense.blocks, dense.size, dense.triangle));
+    if (band !== null) sources.push(new BandRowSource(band.blocks, band.rows, band.denseSize, nCols));
     for (const f of runs) sources.push(new SortedRowSource(new RunReader(f, bufferRecords, firstRow)));
     const rowSums = new Float64Array(endRow - firstRow);
     const rowNnz = new Uint32Array(endRow - firstRow);

@@ -11,9 +11,12 @@
  * Because events are added in arrival order, every sum (even of non-integer weights) and every spill point is
  * exactly what adding each event at once gives: spilled runs and sorted rows do not depend on the staging.
  *
+ * Symmetric windows may also have a dense band: pairs of one of the `bandRows` most frequent terms with a term
+ * past the dense block (the frequent terms meet every other term), in bandRows × nCols uint32 cells.
+ *
  * Memory: the hash (16 bytes per slot, `capacity` slots at most), the sorted copy made at a spill (12 bytes per
  * entry and orientation), kept from one spill to the next with its row and column scratch (8 bytes per row and
- * per column), and 80 KiB of staging.
+ * per column), 80 KiB of staging, and the dense block and band (sized by planAccumulators from the budget).
  *
  * Weights reaching here are integers (harmonic weights are scaled, see windowWeights), so every sum is exact and
  * independent of the order in which pairs arrive, runs spill or partial counts merge.
@@ -40,6 +43,11 @@ export interface AccumulatorOptions {
   triangle: boolean;
   /** Hash slots (a power of two) at which a sorted run is spilled. */
   capacity: number;
+  /**
+   * Symmetric windows: pairs whose smaller id is below this (≤ denseSize) and larger id at least denseSize go to a
+   * dense band of bandRows × nCols cells instead of the hash (the most frequent terms meet every other term).
+   */
+  bandRows?: number;
 }
 
 /** What an accumulator hands to the merge: its dense block, its remaining hash entries sorted, its spilled runs. */
@@ -48,6 +56,9 @@ export interface AccumulatorPartial {
   triangle: boolean;
   /** Dense cells: triangle ? index hi*(hi+1)/2 + lo : row*denseSize + col. */
   dense: Uint32Array;
+  /** Band cells lo * nCols + hi, for lo < bandRows ≤ denseSize ≤ hi (empty when bandRows is 0). */
+  band: Uint32Array;
+  bandRows: number;
   runs: string[];
 }
 
@@ -84,6 +95,8 @@ function hashKey(key: number): number {
 
 export class PairAccumulator {
   readonly dense: Uint32Array;
+  readonly band: Uint32Array;
+  private readonly B: number;
   private readonly D: number;
   private readonly nCols: number;
   private readonly nRows: number;
@@ -127,6 +140,8 @@ export class PairAccumulator {
     this.maxCapacity = opts.capacity;
     // shared memory: the merge threads read the dense block (and the handed-over rows) without a copy
     this.dense = new Uint32Array(new SharedArrayBuffer(denseBytes(this.D, this.triangle)));
+    this.B = opts.triangle ? Math.min(opts.bandRows ?? 0, this.D) : 0;
+    this.band = new Uint32Array(new SharedArrayBuffer(4 * this.B * opts.nCols));
     // start at a quarter of the capacity, at most 2^20 slots, and double up to it: small inputs stay small (the
     // size at which the hash spills, and so every run, is that of a table starting at 2^20 or the capacity)
     let cap = Math.min(1 << 20, opts.capacity);
@@ -154,6 +169,8 @@ export class PairAccumulator {
       // the hot loop of the build: staging a hash event is written out here rather than called
       const nCols = this.nCols;
       const stage = this.stage;
+      const band = this.band;
+      const B = this.B;
       for (let i = 0; i < length; i++) {
         const a = ids[i];
         if (a < 0) continue;
@@ -173,6 +190,15 @@ export class PairAccumulator {
               continue;
             }
             this.overflow(cell, v, lo, hi);
+          } else if (lo < B) {
+            const cell = lo * nCols + hi;
+            const v = band[cell] + w;
+            if (v < DENSE_LIMIT) {
+              band[cell] = v;
+              continue;
+            }
+            band[cell] = 0;
+            this.hashAdd(lo, hi, v);
           } else {
             const n = this.staged;
             stage[n] = lo * nCols + hi;
@@ -412,7 +438,7 @@ export class PairAccumulator {
     this.entries = 0;
     this.spillRowStart = this.rowFill = this.colScratch = this.spillValues = null;
     this.spillCols = null;
-    return { denseSize: this.D, triangle: this.triangle, dense: this.dense, ...rows, runs: this.runs.slice() };
+    return { denseSize: this.D, triangle: this.triangle, dense: this.dense, band: this.band, bandRows: this.B, ...rows, runs: this.runs.slice() };
   }
 }
 

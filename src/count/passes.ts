@@ -179,7 +179,7 @@ export async function countPairs(
   let done = 0;
   const run = await runMap('pairs', (mapper) => ({
     input: cfg.input, tokenize: cfg.tokenize, baseDir: exec.baseDir, vocabulary: encodeTerms(vocab.terms), streamIds: streams?.finalIds ?? [], contexts: cfg.contexts,
-    nCols, denseSize: plan.denseSize, capacity: plan.capacity, spillDir, mapper,
+    nCols, denseSize: plan.denseSize, bandRows: plan.bandRows, capacity: plan.capacity, spillDir, mapper,
   }), tasks, exec.workers, (n) => progress.update((done += n)));
 
   // Merge: the dense blocks summed cell by cell, every mapper's sorted hash entries, every spilled run.
@@ -207,7 +207,8 @@ export async function countPairs(
       rows: run.partials.map((p) => ({ rowStart: p.rowStart, cols: p.cols, values: p.values })),
     }));
     const dense = first.denseSize > 0 ? { blocks: run.partials.map((p) => p.dense), size: first.denseSize, triangle: first.triangle } : null;
-    const merged = await runMap('merge', () => ({ nCols, scale, runs, bufferRecords, dense }), tasks, exec.workers);
+    const band = first.bandRows > 0 ? { blocks: run.partials.map((p) => p.band), rows: first.bandRows, denseSize: first.denseSize } : null;
+    const merged = await runMap('merge', () => ({ nCols, scale, runs, bufferRecords, dense, band }), tasks, exec.workers);
     // sums of integers (scaled weights) are exact, so adding the parts' column sums in any order gives the same bits
     for (const [i, m] of merged.results.entries()) {
       rowSums.set(m.rowSums, ranges[i].firstRow);

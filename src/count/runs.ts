@@ -321,6 +321,25 @@ export class DenseRowSource implements RowWiseSource {
   }
 }
 
+/**
+ * Dense bands (summed cell by cell) as a row-wise source: band cell lo * nCols + hi holds the unordered pair
+ * (lo, hi), lo < bandRows ≤ denseSize ≤ hi, so row r < bandRows has its columns ≥ denseSize there, and row
+ * r ≥ denseSize its columns < bandRows.
+ */
+export class BandRowSource implements RowWiseSource {
+  constructor(private readonly blocks: Uint32Array[], private readonly bandRows: number, private readonly denseSize: number, private readonly nCols: number) {}
+
+  addRow(r: number, acc: RowAccumulator): void {
+    const { blocks, bandRows, denseSize, nCols } = this;
+    if (r < bandRows) {
+      const base = r * nCols;
+      for (const b of blocks) for (let c = denseSize; c < nCols; c++) if (b[base + c] !== 0) acc.add(c, b[base + c]);
+    } else if (r >= denseSize) {
+      for (const b of blocks) for (let c = 0; c < bandRows; c++) if (b[c * nCols + r] !== 0) acc.add(c, b[c * nCols + r]);
+    }
+  }
+}
+
 /** A sorted source (a spilled run) as a row-wise source. */
 export class SortedRowSource implements RowWiseSource {
   constructor(private readonly source: SortedSource & { close?(): void }) {}
