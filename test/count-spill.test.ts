@@ -7,23 +7,15 @@ import { describe, it, expect, beforeAll } from 'vitest';
 import { mkdtempSync, writeFileSync, readFileSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
-import { validateConfig, configHash } from '../src/config/index.js';
 import { runBuild } from '../src/build.js';
-import type { Manifest } from '../src/store/manifest.js';
 import { brownFiles, brownText } from './helpers/brown.js';
+import { loadedConfig, fileChecksums } from './helpers/small-build.js';
 
 let work: string;
 
-function loaded(raw: Record<string, unknown>) {
-  const config = validateConfig(raw, 'test');
-  return { config, baseDir: work, file: path.join(work, 'test.json'), hash: configHash(config) };
-}
+const loaded = (raw: Record<string, unknown>) => loadedConfig(work, raw);
 
-function checksums(m: Manifest): Record<string, string> {
-  const out: Record<string, string> = {};
-  for (const f of m.files) out[f.path] = f.sha256;
-  return out;
-}
+const checksums = fileChecksums;
 
 beforeAll(() => {
   work = mkdtempSync(path.join(os.tmpdir(), 'kindred-spill-'));

@@ -15,7 +15,7 @@ import { transpose, type CsrMatrix, csrRow, type DenseMatrix, denseRow } from '.
 import { NeighborSearcher, type SearchData } from '../src/query/search.js';
 import { brownFiles, brownText } from './helpers/brown.js';
 import { pythonAvailable, runPythonJson } from './helpers/python.js';
-import { readReferenceCoo, runReferencePipeline, type ReferenceMeta } from './helpers/reference.js';
+import { PY_READ_REFERENCE_COO, readReferenceCoo, runReferencePipeline, type ReferenceMeta } from './helpers/reference.js';
 import { mulberry32 } from './helpers/random.js';
 
 const work = mkdtempSync(path.join(os.tmpdir(), 'kindred-search-'));
@@ -138,17 +138,9 @@ describe.skipIf(!pythonAvailable())('exact search equals brute force with src/me
 });
 
 /** scipy.spatial.distance.cdist between sampled rows and all rows, returning the top k (ties by index) per query. */
-const CDIST = `
-import json, sys
-import numpy as np, scipy.sparse as sp
+const CDIST = `${PY_READ_REFERENCE_COO}
 from scipy.spatial.distance import cdist
-arg = json.load(sys.stdin)
-raw = open(arg['file'], 'rb').read()
-nnz = int(np.frombuffer(raw, dtype='<i8', count=1)[0])
-rows = np.frombuffer(raw, dtype='<i4', count=nnz, offset=8)
-cols = np.frombuffer(raw, dtype='<i4', count=nnz, offset=8 + 4 * nnz)
-vals = np.frombuffer(raw, dtype='<f8', count=nnz, offset=8 + 8 * nnz)
-a = sp.csr_matrix((vals, (rows, cols)), shape=(arg['nRows'], arg['nCols'])).toarray()
+a = a.toarray()
 assert (np.abs(a).sum(axis=1) > 0).all()
 out = {}
 for metric in arg['metrics']:

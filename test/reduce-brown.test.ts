@@ -14,23 +14,14 @@ import { blockSource } from '../src/reduce/sparse-products.js';
 import { truncatedSvd } from '../src/reduce/svd.js';
 import { brownFiles, brownText } from './helpers/brown.js';
 import { pythonAvailable, runPythonJson } from './helpers/python.js';
-import { cooToRowBlock, readReferenceCoo, runReferencePipeline, splitRowBlock } from './helpers/reference.js';
+import { PY_READ_REFERENCE_COO, cooToRowBlock, readReferenceCoo, runReferencePipeline, splitRowBlock } from './helpers/reference.js';
 
 const work = mkdtempSync(path.join(os.tmpdir(), 'kindred-svd-brown-'));
 afterAll(() => rmSync(work, { recursive: true, force: true }));
 
 /** scipy.sparse.linalg.svds on a reference COO file: the k largest singular values, descending. */
-const SVDS = `
-import json, sys
-import numpy as np, scipy.sparse as sp
+const SVDS = `${PY_READ_REFERENCE_COO}
 from scipy.sparse.linalg import svds
-arg = json.load(sys.stdin)
-raw = open(arg['file'], 'rb').read()
-nnz = int(np.frombuffer(raw, dtype='<i8', count=1)[0])
-rows = np.frombuffer(raw, dtype='<i4', count=nnz, offset=8)
-cols = np.frombuffer(raw, dtype='<i4', count=nnz, offset=8 + 4 * nnz)
-vals = np.frombuffer(raw, dtype='<f8', count=nnz, offset=8 + 8 * nnz)
-a = sp.csr_matrix((vals, (rows, cols)), shape=(arg['nRows'], arg['nCols']))
 s = svds(a, k=arg['k'], tol=0, v0=np.ones(min(a.shape)), return_singular_vectors=False, solver='arpack')
 print(json.dumps(sorted(s.tolist(), reverse=True)))
 `;

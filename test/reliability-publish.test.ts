@@ -8,19 +8,16 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { cpSync, lstatSync, mkdirSync, mkdtempSync, readlinkSync, realpathSync, rmSync, symlinkSync, writeFileSync, openSync, writeSync, closeSync, fstatSync, readSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
-import { validateConfig, configHash } from '../src/config/index.js';
 import { runBuild } from '../src/build.js';
 import { findNeighbors, loadBuild } from '../src/query/neighbors.js';
 import { verifyBuild } from '../src/store/verify.js';
 import { buildDigest, entries, errorLines, kindred, readManifestOf, startKindred, writeBrown, writeJson } from './reliability-helpers.js';
+import { loadedConfig } from './helpers/small-build.js';
 
 const work = mkdtempSync(path.join(os.tmpdir(), 'kindred-publish-'));
 afterAll(() => rmSync(work, { recursive: true, force: true }));
 
-function loaded(raw: Record<string, unknown>) {
-  const config = validateConfig(raw, 'test');
-  return { config, baseDir: work, file: path.join(work, 'test.json'), hash: configHash(config) };
-}
+const loaded = (raw: Record<string, unknown>) => loadedConfig(work, raw);
 const base = { input: { paths: ['brown.txt'], format: 'text-lines' }, vocabulary: { minCount: 2 }, contexts: { window: 3 }, output: { parts: 3 } };
 const quiet = { notify: () => {} };
 

@@ -180,11 +180,7 @@ export class PairsMapper {
     );
     const push: TokenSink = (bytes, start, end, hash) => {
       const ids = this.ids ?? (this.ids = TermTable.fromTermBytes(setup.vocabulary));
-      if (this.len === this.buf.length) {
-        const bigger = new Int32Array(this.buf.length * 2);
-        bigger.set(this.buf);
-        this.buf = bigger;
-      }
+      if (this.len === this.buf.length) this.growBuffer();
       this.buf[this.len++] = ids.findHashed(bytes, start, end, hash);
     };
     const done = (): void => {
@@ -221,6 +217,13 @@ export class PairsMapper {
     return { stats };
   }
 
+  /** Doubles the document's id buffer, keeping its ids. */
+  private growBuffer(): Int32Array {
+    const bigger = new Int32Array(this.buf.length * 2);
+    bigger.set(this.buf);
+    return (this.buf = bigger);
+  }
+
   /** The split's documents from its token stream, ids translated to the final vocabulary's. */
   private runStream(stream: TokenStreamRef, splitBytes: number, onProgress: (bytes: number) => void): void {
     const toFinal = this.setup.streamIds[stream.mapper];
@@ -228,7 +231,7 @@ export class PairsMapper {
     let reported = 0;
     let read = 0;
     readTokenStream(stream.file, (ids, n, bytes) => {
-      let buf = this.buf;
+      let buf: Int32Array = this.buf;
       let len = this.len;
       for (let i = 0; i < n; i++) {
         const id = ids[i];
@@ -238,11 +241,7 @@ export class PairsMapper {
           len = 0;
           continue;
         }
-        if (len === buf.length) {
-          const bigger = new Int32Array(buf.length * 2);
-          bigger.set(buf);
-          this.buf = buf = bigger;
-        }
+        if (len === buf.length) buf = this.growBuffer();
         buf[len++] = toFinal[id];
       }
       this.len = len;

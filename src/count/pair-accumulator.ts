@@ -189,7 +189,7 @@ export class PairAccumulator {
               dense[cell] = v;
               continue;
             }
-            this.overflow(cell, v, lo, hi);
+            this.overflow(dense, cell, v, lo, hi);
           } else if (lo < B) {
             const cell = lo * nCols + hi;
             const v = band[cell] + w;
@@ -197,8 +197,7 @@ export class PairAccumulator {
               band[cell] = v;
               continue;
             }
-            band[cell] = 0;
-            this.hashAdd(lo, hi, v);
+            this.overflow(band, cell, v, lo, hi);
           } else {
             const n = this.staged;
             stage[n] = lo * nCols + hi;
@@ -227,7 +226,7 @@ export class PairAccumulator {
           if (a < D && b < D) {
             const v = dense[a * D + b] + w;
             if (v < DENSE_LIMIT) dense[a * D + b] = v;
-            else this.overflow(a * D + b, v, a, b);
+            else this.overflow(dense, a * D + b, v, a, b);
           } else this.hashAdd(a, b, w);
         }
         if (toLeft) {
@@ -235,7 +234,7 @@ export class PairAccumulator {
           if (a < D && b < D) {
             const v = dense[b * D + a] + w;
             if (v < DENSE_LIMIT) dense[b * D + a] = v;
-            else this.overflow(b * D + a, v, b, a);
+            else this.overflow(dense, b * D + a, v, b, a);
           } else this.hashAdd(b, a, w);
         }
       }
@@ -253,9 +252,9 @@ export class PairAccumulator {
     }
   }
 
-  /** A dense cell about to leave the uint32 range moves its sum to the hash (sums stay exact). */
-  private overflow(cell: number, sum: number, row: number, col: number): void {
-    this.dense[cell] = 0;
+  /** A dense or band cell about to leave the uint32 range moves its sum to the hash (sums stay exact). */
+  private overflow(cells: Uint32Array, cell: number, sum: number, row: number, col: number): void {
+    cells[cell] = 0;
     this.hashAdd(row, col, sum);
   }
 

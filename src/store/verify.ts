@@ -2,7 +2,7 @@
  * `kindred verify`: checks a published build against its manifest and against the format rules of
  * docs/formats.md, and reports every problem found, one line each. Nothing is written.
  */
-import { existsSync, promises as fsp, statSync } from 'node:fs';
+import { existsSync, statSync } from 'node:fs';
 import path from 'node:path';
 import type { Table } from 'apache-arrow';
 import { configHash } from '../config/canonical.js';
@@ -10,6 +10,7 @@ import { KindredError } from '../errors.js';
 import { sha256File } from './checksum.js';
 import { MANIFEST_FILE, readManifest, resolveBuildDir, type Manifest, type PartRecord } from './manifest.js';
 import { readArrowTable } from './shards.js';
+import { listFiles } from './work-area.js';
 
 export interface VerifyProblem {
   /** The file the problem is in, relative to the build folder ("manifest.json" for the manifest itself). */
@@ -60,16 +61,6 @@ class Problems {
     }
     return this.list;
   }
-}
-
-async function listFiles(root: string, dir = root): Promise<string[]> {
-  const out: string[] = [];
-  for (const e of await fsp.readdir(dir, { withFileTypes: true })) {
-    const p = path.join(dir, e.name);
-    if (e.isDirectory()) out.push(...(await listFiles(root, p)));
-    else out.push(path.relative(root, p).split(path.sep).join('/'));
-  }
-  return out.sort();
 }
 
 /** Code point order of two strings (the tie-break of vocabulary ids). */

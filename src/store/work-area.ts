@@ -57,7 +57,8 @@ function isCode(e: unknown, code: string): boolean {
   return (e as NodeJS.ErrnoException | null)?.code === code;
 }
 
-async function listFiles(root: string, dir = root): Promise<string[]> {
+/** Every file under root, as sorted '/'-separated paths relative to it. */
+export async function listFiles(root: string, dir = root): Promise<string[]> {
   const out: string[] = [];
   for (const e of await fsp.readdir(dir, { withFileTypes: true })) {
     const p = path.join(dir, e.name);

@@ -42,6 +42,22 @@ export function readReferenceCoo(file: string): ReferenceCoo {
   return { rows, cols, values };
 }
 
+/**
+ * Python lines that read the reference COO file arg['file'] (the format readReferenceCoo reads) into a scipy
+ * CSR matrix `a` of shape (arg['nRows'], arg['nCols']); arg comes from JSON on standard input.
+ */
+export const PY_READ_REFERENCE_COO = `
+import json, sys
+import numpy as np, scipy.sparse as sp
+arg = json.load(sys.stdin)
+raw = open(arg['file'], 'rb').read()
+nnz = int(np.frombuffer(raw, dtype='<i8', count=1)[0])
+rows = np.frombuffer(raw, dtype='<i4', count=nnz, offset=8)
+cols = np.frombuffer(raw, dtype='<i4', count=nnz, offset=8 + 4 * nnz)
+vals = np.frombuffer(raw, dtype='<f8', count=nnz, offset=8 + 8 * nnz)
+a = sp.csr_matrix((vals, (rows, cols)), shape=(arg['nRows'], arg['nCols']))
+`;
+
 /** The whole COO matrix as one row block of nRows rows starting at row 0. */
 export function cooToRowBlock(coo: ReferenceCoo, nRows: number): RowBlock {
   const nnz = coo.values.length;

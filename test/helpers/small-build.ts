@@ -4,10 +4,23 @@
  */
 import { writeFileSync } from 'node:fs';
 import path from 'node:path';
-import { configHash, validateConfig } from '../../src/config/index.js';
+import { configHash, validateConfig, type LoadedConfig } from '../../src/config/index.js';
 import { runBuild } from '../../src/build.js';
 import type { Manifest } from '../../src/store/manifest.js';
 import { brownFiles, brownText } from './brown.js';
+
+/** A loaded config for runBuild from raw config keys, with relative paths under `work`. */
+export function loadedConfig(work: string, raw: Record<string, unknown>): LoadedConfig {
+  const config = validateConfig(raw, 'test');
+  return { config, baseDir: work, file: path.join(work, 'test.json'), hash: configHash(config) };
+}
+
+/** The SHA-256 of every file of a build, by path. */
+export function fileChecksums(m: Manifest): Record<string, string> {
+  const out: Record<string, string> = {};
+  for (const f of m.files) out[f.path] = f.sha256;
+  return out;
+}
 
 /** Builds into `<work>/<name>` with the given config keys on top of a small base; returns the build path and manifest. */
 export async function buildBrownPress(work: string, name: string, extra: Record<string, unknown> = {}): Promise<{ dir: string; manifest: Manifest }> {
@@ -23,8 +36,7 @@ export async function buildBrownPress(work: string, name: string, extra: Record<
     workers: 2,
     ...extra,
   };
-  const config = validateConfig(raw, 'test');
   const dir = path.join(work, name);
-  const manifest = await runBuild({ config, baseDir: work, file: 'test', hash: configHash(config) }, { outDir: dir, notify: () => undefined });
+  const manifest = await runBuild(loadedConfig(work, raw), { outDir: dir, notify: () => undefined });
   return { dir, manifest };
 }
