@@ -5,8 +5,7 @@ import { KindredError } from './errors.js';
 import { resolveInputs } from './ingest/index.js';
 import { emptyIngestStats, type IngestStats } from './ingest/types.js';
 import { createTokenizer } from './tokenize/index.js';
-import { pairTableCapacity } from './count/cooccur.js';
-import { countTerms, countPairs, type CountExec, type TermsResult } from './count/passes.js';
+import { countTerms, countPairs, tokenStreams, chunkTokensFor, type CountExec, type TermsResult } from './count/passes.js';
 import { resolveWorkers, withThreadPool } from './exec/pool.js';
 import { partitionRows } from './count/partition.js';
 import { weightShards } from './weight/stage.js';
@@ -31,8 +30,8 @@ export interface BuildOptions {
   /** Path the build is published at (a symbolic link, switched only when the new build has fully succeeded). */
   outDir: string;
   progress?: Progress;
-  /** Pair-table slots before spilling; derived from memoryMiB unless set (tests force spilling with it). */
-  pairTableCapacity?: number;
+  /** Tokens per chunk of the count stage; derived from memoryMiB unless set (tests force many chunks with it). */
+  chunkTokens?: number;
   /** Hears one-line notes (a stale lock taken over, a damaged stage output redone); default: stderr. */
   notify?: (message: string) => void;
 }
@@ -130,11 +129,6 @@ function secondsSince(t0: number): number {
 const sum = (xs: number[]): number => xs.reduce((a, b) => a + b, 0);
 
 /** The vocabulary pass's result when it ran in this build with token streams (and gave this vocabulary). */
-function withStreams(fresh: TermsResult | null, vocab: Vocabulary): TermsResult | Vocabulary {
-  if (fresh === null || fresh.streams === null || fresh.vocab.terms.length !== vocab.terms.length) return vocab;
-  return { ...fresh, vocab };
-}
-
 interface VocabularySummary {
   documents: number;
   tokens: number;
@@ -146,7 +140,7 @@ interface VocabularySummary {
 interface CountSummary {
   pairEvents: number;
   entries: number[];
-  spilledRuns: number;
+  chunks: number;
 }
 
 interface WeightSummary {
@@ -251,14 +245,17 @@ async function buildAndPublish(
     publish: ['counts'],
     run: async (dir) => {
       await fsp.mkdir(path.join(dir, 'counts'));
-      const capacity = opts.pairTableCapacity ?? pairTableCapacity(cfg.memoryMiB);
-      const r = await countPairs(files, cfg, exec, withStreams(fresh, vocab), nCols, ranges, dir, capacity, progress, totalBytes);
+      // the vocabulary pass of this build left token streams; a reused vocabulary needs them made again
+      const streams = fresh !== null ? (fresh as TermsResult).streams
+        : await tokenStreams(files, cfg, exec, vocab, progress, totalBytes, await area.temporaryFolder('tokens'));
+      const chunkTokens = opts.chunkTokens ?? chunkTokensFor(cfg.memoryMiB);
+      const r = await countPairs(cfg, exec, streams, vocab.terms.length, nCols, ranges, dir, chunkTokens, progress);
       await fsp.rm(path.join(dir, 'spill'), { recursive: true, force: true });
       // the weight stage needs the marginals; keeping them here lets it run (or rerun) without recounting
       await writeMarginals(path.join(dir, MARGINALS_FILE), r.marginals);
-      return { pairEvents: r.pairs, entries: r.entries, spilledRuns: r.spilledRuns };
+      return { pairEvents: r.pairs, entries: r.entries, chunks: r.chunks };
     },
-    counts: (s) => ({ pairEvents: s.pairEvents, entries: sum(s.entries), spilledRuns: s.spilledRuns }),
+    counts: (s) => ({ pairEvents: s.pairEvents, entries: sum(s.entries), chunks: s.chunks }),
   });
   const marginals = readMarginals(path.join(countStage.dir, MARGINALS_FILE));
 

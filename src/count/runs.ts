@@ -1,4 +1,4 @@
-import { openSync, readSync, closeSync, fstatSync } from 'node:fs';
+import { openSync, readSync, closeSync } from 'node:fs';
 import { wrapWriteError, writeBytesOrThrow } from '../store/atomic.js';
 
 /** A spilled run: sorted (row u32, col u32, value f64) records, 16 bytes each, little-endian. */
@@ -7,7 +7,9 @@ const BUFFER_RECORDS = 1 << 16;
 
 export class RunWriter {
   private readonly fd: number;
-  private readonly buf = Buffer.allocUnsafe(RECORD * BUFFER_RECORDS);
+  private readonly buf = Buffer.allocUnsafeSlow(RECORD * BUFFER_RECORDS);
+  private readonly u32 = new Uint32Array(this.buf.buffer, this.buf.byteOffset, (RECORD / 4) * BUFFER_RECORDS);
+  private readonly f64 = new Float64Array(this.buf.buffer, this.buf.byteOffset, (RECORD / 8) * BUFFER_RECORDS);
   private fill = 0;
   records = 0;
 
@@ -20,12 +22,31 @@ export class RunWriter {
   }
 
   append(row: number, col: number, value: number): void {
-    const o = this.fill * RECORD;
-    this.buf.writeUInt32LE(row, o);
-    this.buf.writeUInt32LE(col, o + 4);
-    this.buf.writeDoubleLE(value, o + 8);
+    const i = this.fill;
+    this.u32[4 * i] = row;
+    this.u32[4 * i + 1] = col;
+    this.f64[2 * i + 1] = value;
     this.records++;
     if (++this.fill === BUFFER_RECORDS) this.flush();
+  }
+
+  /** Appends row's entries: columns cols (ascending), values sums[col]. */
+  appendRow(row: number, cols: Uint32Array, sums: Float64Array): void {
+    const { u32, f64 } = this;
+    let i = this.fill;
+    for (let j = 0; j < cols.length; j++) {
+      const c = cols[j];
+      u32[4 * i] = row;
+      u32[4 * i + 1] = c;
+      f64[2 * i + 1] = sums[c];
+      if (++i === BUFFER_RECORDS) {
+        this.fill = i;
+        this.flush();
+        i = 0;
+      }
+    }
+    this.fill = i;
+    this.records += cols.length;
   }
 
   private flush(): void {
@@ -63,11 +84,15 @@ export class RunReader implements SortedSource {
   /** Next file offset to read from. */
   private position = 0;
 
-  /** Reads the run from its first record of a row ≥ fromRow (found by binary search over the fixed-size records). */
-  constructor(readonly file: string, bufferRecords = BUFFER_RECORDS, fromRow = 0) {
-    this.buf = Buffer.allocUnsafe(RECORD * Math.max(1, bufferRecords));
+  private readonly u32: Uint32Array;
+  private readonly f64: Float64Array;
+
+  constructor(readonly file: string, bufferRecords = BUFFER_RECORDS) {
+    const records = Math.max(1, bufferRecords);
+    this.buf = Buffer.allocUnsafeSlow(RECORD * records);
+    this.u32 = new Uint32Array(this.buf.buffer, this.buf.byteOffset, (RECORD / 4) * records);
+    this.f64 = new Float64Array(this.buf.buffer, this.buf.byteOffset, (RECORD / 8) * records);
     this.fd = openSync(file, 'r');
-    if (fromRow > 0) this.position = RECORD * this.firstRecordOfRow(fromRow);
     this.advance();
   }
 
@@ -76,19 +101,6 @@ export class RunReader implements SortedSource {
     if (this.done) return;
     this.done = true;
     closeSync(this.fd);
-  }
-
-  private firstRecordOfRow(row: number): number {
-    const one = Buffer.allocUnsafe(4);
-    let lo = 0;
-    let hi = Math.floor(fstatSync(this.fd).size / RECORD);
-    while (lo < hi) {
-      const mid = (lo + hi) >>> 1;
-      readSync(this.fd, one, 0, 4, mid * RECORD);
-      if (one.readUInt32LE(0) < row) lo = mid + 1;
-      else hi = mid;
-    }
-    return lo;
   }
 
   advance(): void {
@@ -102,88 +114,34 @@ export class RunReader implements SortedSource {
         return;
       }
     }
-    const o = this.at * RECORD;
-    this.row = this.buf.readUInt32LE(o);
-    this.col = this.buf.readUInt32LE(o + 4);
-    this.value = this.buf.readDoubleLE(o + 8);
+    const i = this.at;
+    this.row = this.u32[4 * i];
+    this.col = this.u32[4 * i + 1];
+    this.value = this.f64[2 * i + 1];
     this.at++;
   }
 }
 
-/** Entries held as compressed sparse rows (rows ascending, columns ascending within a row), in memory. */
-export class RowsSource implements SortedSource {
-  private p = 0;
-  private r = 0;
-  row = 0;
-  col = 0;
-  value = 0;
-  done = false;
-
-  constructor(private readonly rowStart: Float64Array, private readonly cols: Uint32Array, private readonly values: Float64Array) {
-    this.advance();
-  }
-
-  advance(): void {
-    const p = this.p;
-    if (p >= this.cols.length) {
-      this.done = true;
-      return;
-    }
-    while (this.rowStart[this.r + 1] <= p) this.r++;
-    this.row = this.r;
-    this.col = this.cols[p];
-    this.value = this.values[p];
-    this.p = p + 1;
-  }
-}
-
 /**
- * The nonzero cells of a dense block of size D × D in (row, col) order. A triangle block holds each unordered
- * pair once at hi*(hi+1)/2 + lo; both orientations are emitted, and a diagonal cell counts twice (the pair was
- * seen from both of its ends).
+ * Reads a run through a fixed buffer in batches: onBatch(u32, f64, n) gets records [0, n) as views (row
+ * u32[4i], col u32[4i + 1], value f64[2i + 1]), valid during the call only.
  */
-export class DenseSource implements SortedSource {
-  private r = 0;
-  private c = -1;
-  row = 0;
-  col = 0;
-  value = 0;
-  done = false;
-
-  /** blocks: the dense blocks of several accumulators, summed cell by cell as they are read. */
-  constructor(private readonly blocks: Uint32Array[], private readonly D: number, private readonly triangle: boolean) {
-    this.advance();
-  }
-
-  private cell(i: number): number {
-    let v = 0;
-    for (const b of this.blocks) v += b[i];
-    return v;
-  }
-
-  advance(): void {
-    const { D, triangle } = this;
-    for (;;) {
-      if (++this.c >= D) {
-        this.c = 0;
-        if (++this.r >= D) {
-          this.done = true;
-          return;
-        }
-      }
-      const r = this.r;
-      const c = this.c;
-      let v: number;
-      if (!triangle) v = this.cell(r * D + c);
-      else if (r === c) v = 2 * this.cell(((r * (r + 1)) >>> 1) + r);
-      else v = r < c ? this.cell(((c * (c + 1)) >>> 1) + r) : this.cell(((r * (r + 1)) >>> 1) + c);
-      if (v !== 0) {
-        this.row = r;
-        this.col = c;
-        this.value = v;
-        return;
-      }
+export function readRunBatches(file: string, bufferRecords: number, onBatch: (u32: Uint32Array, f64: Float64Array, n: number) => void): void {
+  const records = Math.max(1, bufferRecords);
+  const buf = Buffer.allocUnsafeSlow(RECORD * records);
+  const u32 = new Uint32Array(buf.buffer, buf.byteOffset, (RECORD / 4) * records);
+  const f64 = new Float64Array(buf.buffer, buf.byteOffset, (RECORD / 8) * records);
+  const fd = openSync(file, 'r');
+  try {
+    for (let position = 0; ;) {
+      const bytes = readSync(fd, buf, 0, buf.length, position);
+      if (bytes <= 0) break;
+      if (bytes % RECORD !== 0) throw new Error(`${file}: run cut inside a record (${bytes} bytes read)`);
+      position += bytes;
+      onBatch(u32, f64, bytes / RECORD);
     }
+  } finally {
+    closeSync(fd);
   }
 }
 
@@ -247,11 +205,6 @@ export function mergeSources(sources: SortedSource[], nCols: number, emit: (row:
   if (curKey >= 0) emit(curRow, curCol, sum);
 }
 
-/** k-way merge of sorted run files (see mergeSources). */
-export function mergeRuns(files: string[], nCols: number, emit: (row: number, col: number, value: number) => void): void {
-  mergeSources(files.map((f) => new RunReader(f)), nCols, emit);
-}
-
 /** Sums one row's entries of a source into a row accumulator. */
 export interface RowWiseSource {
   /** Adds the entries of row r (rows are asked for in ascending order, each once). */
@@ -282,61 +235,6 @@ export class RowAccumulator {
       this.cols[this.n++] = col;
     }
     this.sums[col] += value;
-  }
-}
-
-/** Compressed sparse rows in memory as a row-wise source. */
-export class RowsRowSource implements RowWiseSource {
-  constructor(private readonly rowStart: Float64Array, private readonly cols: Uint32Array, private readonly values: Float64Array) {}
-
-  addRow(r: number, acc: RowAccumulator): void {
-    const { cols, values } = this;
-    const end = this.rowStart[r + 1];
-    for (let p = this.rowStart[r]; p < end; p++) acc.add(cols[p], values[p]);
-  }
-}
-
-/** Dense blocks (summed cell by cell) as a row-wise source; triangles as in DenseSource. */
-export class DenseRowSource implements RowWiseSource {
-  constructor(private readonly blocks: Uint32Array[], private readonly D: number, private readonly triangle: boolean) {}
-
-  addRow(r: number, acc: RowAccumulator): void {
-    const { D, triangle, blocks } = this;
-    if (r >= D) return;
-    for (const b of blocks) {
-      if (!triangle) {
-        const base = r * D;
-        for (let c = 0; c < D; c++) if (b[base + c] !== 0) acc.add(c, b[base + c]);
-        continue;
-      }
-      // row r of the symmetric block: cells (r, c) for c ≤ r lie in row r of the triangle, for c > r in column r
-      const base = (r * (r + 1)) >>> 1;
-      for (let c = 0; c < r; c++) if (b[base + c] !== 0) acc.add(c, b[base + c]);
-      if (b[base + r] !== 0) acc.add(r, 2 * b[base + r]); // a pair of one term with itself was seen from both ends
-      for (let c = r + 1; c < D; c++) {
-        const v = b[((c * (c + 1)) >>> 1) + r];
-        if (v !== 0) acc.add(c, v);
-      }
-    }
-  }
-}
-
-/**
- * Dense bands (summed cell by cell) as a row-wise source: band cell lo * nCols + hi holds the unordered pair
- * (lo, hi), lo < bandRows ≤ denseSize ≤ hi, so row r < bandRows has its columns ≥ denseSize there, and row
- * r ≥ denseSize its columns < bandRows.
- */
-export class BandRowSource implements RowWiseSource {
-  constructor(private readonly blocks: Uint32Array[], private readonly bandRows: number, private readonly denseSize: number, private readonly nCols: number) {}
-
-  addRow(r: number, acc: RowAccumulator): void {
-    const { blocks, bandRows, denseSize, nCols } = this;
-    if (r < bandRows) {
-      const base = r * nCols;
-      for (const b of blocks) for (let c = denseSize; c < nCols; c++) if (b[base + c] !== 0) acc.add(c, b[base + c]);
-    } else if (r >= denseSize) {
-      for (const b of blocks) for (let c = 0; c < bandRows; c++) if (b[c * nCols + r] !== 0) acc.add(c, b[c * nCols + r]);
-    }
   }
 }
 

@@ -1,9 +1,10 @@
 /** The kinds of map task the local executor runs, and how a thread (or the main thread) starts each. */
 import type { InputSplit } from '../ingest/split.js';
 import {
-  PairsMapper, VocabularyMapper, transferablesOf as countTransferables,
-  type PairsPartial, type PairsSetup, type PairsTask, type SplitResult, type VocabularyPartial, type VocabularySetup,
+  VocabularyMapper, transferablesOf as countTransferables, type SplitResult, type VocabularyPartial, type VocabularySetup,
 } from '../count/map.js';
+import { RowsMapper, type RowsResult, type RowsSetup, type RowsTask } from '../count/rows-map.js';
+import { ChunkMapper, type ChunkResult, type ChunkSetup, type ChunkTask } from '../count/chunk-map.js';
 import type { WeightResult, WeightSetup, WeightTask } from '../weight/map.js';
 import type { MergeResult, MergeSetup, MergeTask } from '../count/merge-map.js';
 
@@ -15,7 +16,8 @@ export interface Mapper<Task, Result, Partial> {
 
 export interface MapKinds {
   vocabulary: { setup: VocabularySetup; task: InputSplit; result: SplitResult; partial: VocabularyPartial };
-  pairs: { setup: PairsSetup; task: PairsTask; result: SplitResult; partial: PairsPartial };
+  chunk: { setup: ChunkSetup; task: ChunkTask; result: ChunkResult; partial: Record<string, never> };
+  rows: { setup: RowsSetup; task: RowsTask; result: RowsResult; partial: Record<string, never> };
   weight: { setup: WeightSetup; task: WeightTask; result: WeightResult; partial: Record<string, never> };
   merge: { setup: MergeSetup; task: MergeTask; result: MergeResult; partial: Record<string, never> };
 }
@@ -42,18 +44,25 @@ export async function createMapper(kind: MapKind, setup: unknown): Promise<AnyMa
     const m = new MergeMapper(setup as MergeSetup);
     return { run: (t, p) => m.run(t as MergeTask, p), finish: () => m.finish() };
   }
-  const m = await PairsMapper.create(setup as PairsSetup);
-  return { run: (t, p) => m.run(t as PairsTask, p), finish: () => m.finish() };
+  if (kind === 'chunk') {
+    const m = new ChunkMapper(setup as ChunkSetup);
+    return { run: (t) => m.run(t as ChunkTask), finish: () => m.finish() };
+  }
+  const m = new RowsMapper(setup as RowsSetup);
+  return { run: (t, p) => m.run(t as RowsTask, p), finish: () => m.finish() };
 }
 
 /** The typed arrays of a partial, for a zero-copy hand-over between threads. */
 export function transferablesOf(partial: AnyPartial): ArrayBuffer[] {
-  if ('terms' in partial || 'dense' in partial) return countTransferables(partial as VocabularyPartial | PairsPartial);
+  if ('terms' in partial) return countTransferables(partial as VocabularyPartial);
   return [];
 }
 
 /** Typed arrays of a task result worth moving back rather than copying. */
 export function resultTransferables(result: unknown): ArrayBuffer[] {
+  if (result === null || typeof result !== 'object') return [];
+  const counts = (result as Partial<ChunkResult & object>).counts;
+  if (counts !== undefined) return [counts.buffer as ArrayBuffer];
   const r = result as Partial<MergeResult>;
   if (r.colSums === undefined || r.rowSums === undefined || r.rowNnz === undefined) return [];
   return [r.colSums.buffer, r.rowSums.buffer, r.rowNnz.buffer] as ArrayBuffer[];

@@ -1,0 +1,197 @@
+/**
+ * The count stage's view of the corpus: the token streams of all splits, in split order, form one stream of
+ * final term ids. It is counted in chunks of at most a budgeted number of tokens. A chunk is loaded into
+ * shared memory with the tokens either side that its windows reach, between two DOCUMENT_END sentinels, and
+ * indexed: the positions of its own tokens grouped by term id (a counting sort), so that the row of a term is
+ * counted from that term's occurrences alone, on any thread. Memory: 8 bytes a token of the chunk (ids and
+ * positions), whatever the corpus size.
+ *
+ * Loading runs in slices, on the threads (src/count/chunk-map.ts): each slice is read, mapped to final ids and
+ * its terms counted (fillSlice); once every slice's counts are known, each slice writes its positions at its
+ * own offsets (indexSlice), so the index is the same whatever the slices.
+ */
+import { closeSync, openSync, readSync, statSync } from 'node:fs';
+import { DOCUMENT_END, type TokenStreamRef } from './token-stream.js';
+
+/** The token streams of the splits, in corpus order, and per vocabulary mapper its term ids' final ids (-1: none). */
+export interface CorpusStreams {
+  refs: TokenStreamRef[];
+  /** In shared memory, so that handing them to a thread does not copy them. */
+  finalIds: Int32Array[];
+}
+
+/** A loaded chunk, in shared memory (the typed arrays' buffers are SharedArrayBuffers). */
+export interface Chunk {
+  /** Final ids of the stream entries [lo, hi): the chunk's own [from, to) and the margins, DOCUMENT_END sentinels at both ends. */
+  ids: Int32Array;
+  /** Index into ids of the chunk's first own token and one past its last. */
+  ownStart: number;
+  ownEnd: number;
+  /** Positions (into ids) of the own tokens of term t: positions[rowStart[t] .. rowStart[t + 1]), ascending. */
+  positions: Int32Array;
+  rowStart: Int32Array;
+  /** Positions (into ids) of the DOCUMENT_END markers among the own tokens, ascending. */
+  documentEnds: Int32Array;
+  /** Corpus-wide index of the document the chunk's first own token belongs to. */
+  firstDocument: number;
+}
+
+/** Where a chunk's entries come from: stream entries [lo, hi) go to ids[1 ..]. */
+export interface ChunkSource {
+  streams: CorpusStreams;
+  lengths: number[];
+  lo: number;
+  ids: Int32Array;
+  ownStart: number;
+  ownEnd: number;
+  nRows: number;
+}
+
+/** One slice of a chunk's ids, [start, end) as indexes into ids. */
+export interface ChunkSlice {
+  start: number;
+  end: number;
+}
+
+/** A slice's term counts among the own tokens, and its document ends. */
+export interface SliceCounts {
+  counts: Int32Array;
+  ends: number;
+}
+
+/** Stream entries (tokens and document ends) of each token stream file. */
+export function streamLengths(streams: CorpusStreams): number[] {
+  return streams.refs.map((r) => statSync(r.file).size / 4);
+}
+
+/** Cuts [0, total) into chunks of at most `chunkTokens` stream entries. */
+export function planChunks(total: number, chunkTokens: number): { from: number; to: number }[] {
+  const n = Math.max(1, Math.ceil(total / Math.max(1, chunkTokens)));
+  const out: { from: number; to: number }[] = [];
+  for (let i = 0; i < n; i++) out.push({ from: Math.floor((total * i) / n), to: Math.floor((total * (i + 1)) / n) });
+  return out;
+}
+
+export function sharedInt32(n: number): Int32Array {
+  return new Int32Array(new SharedArrayBuffer(4 * Math.max(1, n)));
+}
+
+/**
+ * The shared ids array of the chunk owning stream entries [from, to), with `margin` entries either side as far
+ * as the corpus goes; entries are filled in by fillSlice.
+ */
+export function chunkSource(streams: CorpusStreams, lengths: number[], from: number, to: number, margin: number, nRows: number): ChunkSource {
+  const total = lengths.reduce((s, n) => s + n, 0);
+  const lo = Math.max(0, from - margin);
+  const hi = Math.min(total, to + margin);
+  const ids = sharedInt32(hi - lo + 2);
+  ids[0] = DOCUMENT_END;
+  ids[hi - lo + 1] = DOCUMENT_END;
+  return { streams, lengths, lo, ids, ownStart: 1 + from - lo, ownEnd: 1 + to - lo, nRows };
+}
+
+/** The chunk's entries between its sentinels cut into `n` slices. */
+export function planSlices(source: ChunkSource, n: number): ChunkSlice[] {
+  const len = source.ids.length - 2;
+  return Array.from({ length: n }, (_, i) => ({ start: 1 + Math.floor((len * i) / n), end: 1 + Math.floor((len * (i + 1)) / n) }));
+}
+
+/** Reads a slice's stream entries into the chunk as final ids; counts its own tokens by term and its document ends. */
+export function fillSlice(source: ChunkSource, slice: ChunkSlice): SliceCounts {
+  const { streams, lengths, ids } = source;
+  let from = source.lo + slice.start - 1;
+  const to = source.lo + slice.end - 1;
+  let at = slice.start;
+  let fileStart = 0;
+  for (let f = 0; f < lengths.length && from < to; f++) {
+    const fileEnd = fileStart + lengths[f];
+    if (from < fileEnd) {
+      const n = Math.min(to, fileEnd) - from;
+      const bytes = Buffer.from(ids.buffer, ids.byteOffset + 4 * at, 4 * n);
+      const { file, mapper } = streams.refs[f];
+      const fd = openSync(file, 'r');
+      try {
+        let done = 0;
+        while (done < bytes.length) {
+          const got = readSync(fd, bytes, done, bytes.length - done, 4 * (from - fileStart) + done);
+          if (got <= 0) throw new Error(`${file}: token stream ends early (${done} of ${bytes.length} bytes read)`);
+          done += got;
+        }
+      } finally {
+        closeSync(fd);
+      }
+      const toFinal = streams.finalIds[mapper];
+      for (let i = at; i < at + n; i++) {
+        const id = ids[i];
+        if (id >= 0) ids[i] = toFinal[id];
+      }
+      at += n;
+      from += n;
+    }
+    fileStart = fileEnd;
+  }
+  const counts = new Int32Array(source.nRows);
+  let ends = 0;
+  const start = Math.max(slice.start, source.ownStart);
+  const end = Math.min(slice.end, source.ownEnd);
+  for (let p = start; p < end; p++) {
+    const id = ids[p];
+    if (id >= 0) counts[id]++;
+    else if (id === DOCUMENT_END) ends++;
+  }
+  return { counts, ends };
+}
+
+/** Where each slice writes its positions: per slice, the first index of each term's, and of its document ends. */
+export function sliceOffsets(counted: SliceCounts[], nRows: number): { rowStart: Int32Array; offsets: Int32Array[]; endOffsets: number[]; ends: number } {
+  const rowStart = sharedInt32(nRows + 1);
+  for (const c of counted) for (let t = 0; t < nRows; t++) rowStart[t + 1] += c.counts[t];
+  for (let t = 0; t < nRows; t++) rowStart[t + 1] += rowStart[t];
+  const next = rowStart.slice(0, nRows);
+  const endOffsets: number[] = [];
+  let ends = 0;
+  // slices in corpus order: each term's positions stay ascending; the counts become the slices' offsets
+  const offsets = counted.map((c) => {
+    const start = next.slice();
+    for (let t = 0; t < nRows; t++) next[t] += c.counts[t];
+    endOffsets.push(ends);
+    ends += c.ends;
+    return start;
+  });
+  return { rowStart, offsets, endOffsets, ends };
+}
+
+/** Writes a slice's own positions by term, from its offsets, and its document ends. */
+export function indexSlice(source: ChunkSource, slice: ChunkSlice, offsets: Int32Array, endOffset: number, positions: Int32Array, documentEnds: Int32Array): void {
+  const { ids } = source;
+  let e = endOffset;
+  const start = Math.max(slice.start, source.ownStart);
+  const end = Math.min(slice.end, source.ownEnd);
+  for (let p = start; p < end; p++) {
+    const id = ids[p];
+    if (id >= 0) positions[offsets[id]++] = p;
+    else if (id === DOCUMENT_END) documentEnds[e++] = p;
+  }
+}
+
+/** The chunk from its source and index. */
+export function chunkOf(source: ChunkSource, rowStart: Int32Array, positions: Int32Array, documentEnds: Int32Array, firstDocument: number): Chunk {
+  return { ids: source.ids, ownStart: source.ownStart, ownEnd: source.ownEnd, positions, rowStart, documentEnds, firstDocument };
+}
+
+/**
+ * Loads and indexes the chunk owning stream entries [from, to) in this thread, in `slices` slices.
+ * `firstDocument` is the number of documents that end before `from`.
+ */
+export function loadChunk(
+  streams: CorpusStreams, lengths: number[], from: number, to: number, margin: number, nRows: number, firstDocument: number, slices = 1,
+): Chunk {
+  const source = chunkSource(streams, lengths, from, to, margin, nRows);
+  const plan = planSlices(source, slices);
+  const counted = plan.map((s) => fillSlice(source, s));
+  const { rowStart, offsets, endOffsets, ends } = sliceOffsets(counted, nRows);
+  const positions = sharedInt32(rowStart[nRows]);
+  const documentEnds = sharedInt32(ends).subarray(0, ends);
+  plan.forEach((s, i) => indexSlice(source, s, offsets[i], endOffsets[i], positions, documentEnds));
+  return chunkOf(source, rowStart, positions, documentEnds, firstDocument);
+}

@@ -1,0 +1,139 @@
+/**
+ * The count task, run in a worker thread or the main thread alike: the rows [firstRow, endRow) of one loaded
+ * chunk, each counted from its term's occurrences (the chunk's index) into a dense scratch row, written as a
+ * sorted run of (row, col, scaled sum) records. Every cell is summed in corpus order, whatever the thread,
+ * so the runs do not depend on the thread count. The scratch row stays in cache for the columns of frequent
+ * terms (ids are in descending count order), which is where most of a row's events fall.
+ */
+import type { ContextsConfig } from '../config/types.js';
+import type { Chunk } from './chunks.js';
+import { RunWriter } from './runs.js';
+import { DOCUMENT_END } from './token-stream.js';
+
+export interface RowsSetup {
+  chunk: Chunk;
+  contexts: ContextsConfig;
+  /** Integer weight per distance 1..window (windowWeights), for window contexts. */
+  weights: Float64Array;
+  nCols: number;
+}
+
+export interface RowsTask {
+  firstRow: number;
+  endRow: number;
+  /** The run file to write. */
+  file: string;
+  /** Progress units to report when done. */
+  progress: number;
+}
+
+export interface RowsResult {
+  /** Records written. */
+  entries: number;
+  /** Pair events counted (context tokens added to rows). */
+  pairs: number;
+}
+
+/** Rows of a chunk as sorted runs. */
+export class RowsMapper {
+  /** Sums by column of the row being counted, and the columns it touched. */
+  private sums: Float64Array | null = null;
+  private touched: Uint32Array | null = null;
+
+  constructor(private readonly setup: RowsSetup) {}
+
+  async run(task: RowsTask, onProgress: (units: number) => void): Promise<RowsResult> {
+    const out = new RunWriter(task.file);
+    let pairs = 0;
+    try {
+      pairs = this.setup.contexts.type === 'document' ? this.documentRows(task, out) : this.windowRows(task, out);
+    } finally {
+      out.close();
+    }
+    onProgress(task.progress);
+    return { entries: out.records, pairs };
+  }
+
+  private windowRows(task: RowsTask, out: RunWriter): number {
+    const { chunk, contexts, weights, nCols } = this.setup;
+    const { ids, positions, rowStart } = chunk;
+    const k = contexts.window;
+    const left = contexts.direction !== 'right' ? k : 0;
+    const right = contexts.direction !== 'left' ? k : 0;
+    const sums = this.sums ?? (this.sums = new Float64Array(nCols));
+    const touched = this.touched ?? (this.touched = new Uint32Array(nCols));
+    let pairs = 0;
+    for (let r = task.firstRow; r < task.endRow; r++) {
+      let n = 0;
+      const end = rowStart[r + 1];
+      for (let q = rowStart[r]; q < end; q++) {
+        const p = positions[q];
+        for (let d = 1; d <= left; d++) {
+          const c = ids[p - d];
+          if (c < 0) {
+            if (c === DOCUMENT_END) break;
+            continue;
+          }
+          if (sums[c] === 0) touched[n++] = c;
+          sums[c] += weights[d];
+          pairs++;
+        }
+        for (let d = 1; d <= right; d++) {
+          const c = ids[p + d];
+          if (c < 0) {
+            if (c === DOCUMENT_END) break;
+            continue;
+          }
+          if (sums[c] === 0) touched[n++] = c;
+          sums[c] += weights[d];
+          pairs++;
+        }
+      }
+      if (n === 0) continue;
+      const cols = touched.subarray(0, n);
+      cols.sort();
+      out.appendRow(r, cols, sums);
+      for (let i = 0; i < n; i++) sums[cols[i]] = 0;
+    }
+    return pairs;
+  }
+
+  /** Term × document counts: a row's occurrences are in corpus order, so its documents come out ascending. */
+  private documentRows(task: RowsTask, out: RunWriter): number {
+    const { chunk } = this.setup;
+    const { positions, rowStart, documentEnds, firstDocument } = chunk;
+    const nEnds = documentEnds.length;
+    let pairs = 0;
+    for (let r = task.firstRow; r < task.endRow; r++) {
+      let e = 0;
+      let doc = -1;
+      let count = 0;
+      const end = rowStart[r + 1];
+      for (let q = rowStart[r]; q < end; q++) {
+        const p = positions[q];
+        // the document of p: how many documents end before it (a search from the last one found)
+        let lo = e;
+        let hi = nEnds;
+        while (lo < hi) {
+          const mid = (lo + hi) >>> 1;
+          if (documentEnds[mid] < p) lo = mid + 1;
+          else hi = mid;
+        }
+        e = lo;
+        if (e !== doc) {
+          if (count > 0) out.append(r, firstDocument + doc, count);
+          doc = e;
+          count = 0;
+        }
+        count++;
+        pairs++;
+      }
+      if (count > 0) out.append(r, firstDocument + doc, count);
+    }
+    return pairs;
+  }
+
+  finish(): Record<string, never> {
+    return {};
+  }
+}

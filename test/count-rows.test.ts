@@ -1,0 +1,206 @@
+/**
+ * The count stage's chunks and row tasks (src/count/chunks.ts, src/count/rows-map.ts) against counting the same
+ * seeded token streams by definition ("common practice, no source"), computed here from the documents alone:
+ *  - window contexts: every ordered pair of in-vocabulary tokens of one document at distance d ≤ k adds the
+ *    window weight of d (harmonic: 1/d scaled to the integer lcm(1..k)/d) to cell (token, context), where the
+ *    context is on the token's right, its left, or either side; out-of-vocabulary tokens keep their place;
+ *  - document contexts: every in-vocabulary token adds 1 to cell (token, its document's corpus-wide index).
+ * The streams are written with the vocabulary pass's TokenStreamWriter, in several files numbered by two
+ * mappers with their own ids, and counted in one chunk and in chunks far smaller than a document, so windows
+ * cross chunk edges; every run must be sorted and the runs together must hold exactly the definition's cells.
+ */
+import { describe, it, expect, beforeAll, afterAll } from 'vitest';
+import { mkdtempSync, rmSync } from 'node:fs';
+import os from 'node:os';
+import path from 'node:path';
+import type { ContextsConfig } from '../src/config/types.js';
+import { loadChunk, planChunks, streamLengths, type CorpusStreams } from '../src/count/chunks.js';
+import { RowsMapper } from '../src/count/rows-map.js';
+import { RunReader } from '../src/count/runs.js';
+import { windowWeights } from '../src/count/cooccur.js';
+import { DOCUMENT_END, TokenStreamWriter } from '../src/count/token-stream.js';
+import { mulberry32 } from './helpers/random.js';
+
+let work: string;
+
+beforeAll(() => {
+  work = mkdtempSync(path.join(os.tmpdir(), 'kindred-rows-'));
+});
+afterAll(() => rmSync(work, { recursive: true, force: true }));
+
+const N_TERMS = 60;
+
+/** Documents of final ids drawn with probability ∝ 1/(rank + 1), a share of them -1 (out of vocabulary). */
+function zipfDocuments(seed: number, nDocs: number, maxLength: number, oov: number): Int32Array[] {
+  const rand = mulberry32(seed);
+  const cdf = new Float64Array(N_TERMS);
+  let s = 0;
+  for (let r = 0; r < N_TERMS; r++) cdf[r] = s += 1 / (r + 1);
+  const docs: Int32Array[] = [];
+  for (let d = 0; d < nDocs; d++) {
+    // some documents are empty: they still take a document number
+    const doc = new Int32Array(Math.floor(rand() * maxLength));
+    for (let i = 0; i < doc.length; i++) {
+      if (rand() < oov) {
+        doc[i] = -1;
+        continue;
+      }
+      const u = rand() * s;
+      let r = 0;
+      while (cdf[r] < u) r++;
+      doc[i] = r;
+    }
+    docs.push(doc);
+  }
+  return docs;
+}
+
+/**
+ * The documents as token streams in `files` files, alternately numbered by two mappers whose local ids are a
+ * permutation of the final ids plus local ids of terms outside the vocabulary.
+ */
+function writeStreams(docs: Int32Array[], files: number, tag: string): CorpusStreams {
+  const rand = mulberry32(7);
+  const finalIds: Int32Array[] = [];
+  const localOf: Int32Array[] = [];
+  for (let m = 0; m < 2; m++) {
+    const local = Array.from({ length: N_TERMS + 5 }, (_, i) => i);
+    for (let i = local.length - 1; i > 0; i--) {
+      const j = Math.floor(rand() * (i + 1));
+      [local[i], local[j]] = [local[j], local[i]];
+    }
+    const toFinal = new Int32Array(N_TERMS + 5).fill(-1);
+    const ofFinal = new Int32Array(N_TERMS + 1);
+    for (let t = 0; t < N_TERMS; t++) {
+      toFinal[local[t]] = t;
+      ofFinal[t] = local[t];
+    }
+    ofFinal[N_TERMS] = local[N_TERMS + m]; // the local id of a term outside the vocabulary
+    finalIds.push(toFinal);
+    localOf.push(ofFinal);
+  }
+  const refs = [];
+  const perFile = Math.ceil(docs.length / files);
+  for (let f = 0; f < files; f++) {
+    const mapper = f % 2;
+    const file = path.join(work, `${tag}-${f}.ids`);
+    const w = new TokenStreamWriter(file);
+    for (const doc of docs.slice(f * perFile, (f + 1) * perFile)) {
+      for (const id of doc) w.push(localOf[mapper][id < 0 ? N_TERMS : id]);
+      w.push(DOCUMENT_END);
+    }
+    w.close();
+    refs.push({ file, mapper });
+  }
+  return { refs, finalIds };
+}
+
+/** Cells by definition, keyed "row,col". */
+function byDefinition(docs: Int32Array[], ctx: ContextsConfig): Map<string, number> {
+  const cells = new Map<string, number>();
+  const add = (r: number, c: number, w: number): void => void cells.set(`${r},${c}`, (cells.get(`${r},${c}`) ?? 0) + w);
+  const { weights } = windowWeights(ctx);
+  docs.forEach((doc, d) => {
+    for (let i = 0; i < doc.length; i++) {
+      if (doc[i] < 0) continue;
+      if (ctx.type === 'document') {
+        add(doc[i], d, 1);
+        continue;
+      }
+      for (let j = 0; j < doc.length; j++) {
+        const dist = Math.abs(i - j);
+        if (j === i || dist > ctx.window || doc[j] < 0) continue;
+        if (ctx.direction === 'right' && j < i) continue;
+        if (ctx.direction === 'left' && j > i) continue;
+        add(doc[i], doc[j], weights[dist]);
+      }
+    }
+  });
+  return cells;
+}
+
+/** Counts the streams chunk by chunk with row tasks of `rowsPerTask` rows; the cells of all runs, summed. */
+async function counted(streams: CorpusStreams, ctx: ContextsConfig, chunkTokens: number, rowsPerTask: number): Promise<{ cells: Map<string, number>; pairs: number; chunks: number }> {
+  const lengths = streamLengths(streams);
+  const chunks = planChunks(lengths.reduce((s, n) => s + n, 0), chunkTokens);
+  const { weights } = windowWeights(ctx);
+  const cells = new Map<string, number>();
+  let pairs = 0;
+  let firstDocument = 0;
+  let run = 0;
+  for (const { from, to } of chunks) {
+    const chunk = loadChunk(streams, lengths, from, to, ctx.type === 'document' ? 0 : ctx.window, N_TERMS, firstDocument);
+    firstDocument += chunk.documentEnds.length;
+    const mapper = new RowsMapper({ chunk, contexts: ctx, weights, nCols: ctx.type === 'document' ? 10_000 : N_TERMS });
+    for (let first = 0; first < N_TERMS; first += rowsPerTask) {
+      const file = path.join(work, `run-${run++}.bin`);
+      const result = await mapper.run({ firstRow: first, endRow: Math.min(N_TERMS, first + rowsPerTask), file, progress: 0 }, () => {});
+      pairs += result.pairs;
+      const reader = new RunReader(file);
+      let records = 0;
+      let last = -1;
+      for (; !reader.done; reader.advance()) {
+        records++;
+        const key = reader.row * 1e6 + reader.col;
+        expect(key).toBeGreaterThan(last); // sorted, no cell twice in a run
+        last = key;
+        expect(reader.row).toBeGreaterThanOrEqual(first);
+        expect(reader.row).toBeLessThan(first + rowsPerTask);
+        cells.set(`${reader.row},${reader.col}`, (cells.get(`${reader.row},${reader.col}`) ?? 0) + reader.value);
+      }
+      expect(records).toBe(result.entries);
+    }
+  }
+  return { cells, pairs, chunks: chunks.length };
+}
+
+function sorted(m: Map<string, number>): [string, number][] {
+  return [...m.entries()].sort((a, b) => (a[0] < b[0] ? -1 : a[0] > b[0] ? 1 : 0));
+}
+
+describe('chunked row counting equals counting by definition', () => {
+  const cases: [string, ContextsConfig][] = [
+    ['symmetric harmonic window 5', { type: 'window', window: 5, direction: 'symmetric', weighting: 'harmonic' }],
+    ['symmetric uniform window 2', { type: 'window', window: 2, direction: 'symmetric', weighting: 'uniform' }],
+    ['left uniform window 3', { type: 'window', window: 3, direction: 'left', weighting: 'uniform' }],
+    ['right harmonic window 4', { type: 'window', window: 4, direction: 'right', weighting: 'harmonic' }],
+    ['document contexts', { type: 'document', window: 5, direction: 'symmetric', weighting: 'uniform' }],
+  ];
+  for (const [name, ctx] of cases) {
+    it(`${name}: one chunk and chunks shorter than a document`, async () => {
+      const docs = zipfDocuments(name.length, 120, 40, 0.1);
+      const streams = writeStreams(docs, 5, name.replace(/\W+/g, '-'));
+      const expected = sorted(byDefinition(docs, ctx));
+      const events = [...byDefinition(docs, { ...ctx, weighting: 'uniform' }).values()].reduce((s, v) => s + v, 0);
+      expect(expected.length).toBeGreaterThan(300);
+      for (const [chunkTokens, rowsPerTask] of [[1e9, N_TERMS], [1e9, 7], [37, 11], [5, 60]]) {
+        const got = await counted(streams, ctx, chunkTokens, rowsPerTask);
+        if (chunkTokens < 1e9) expect(got.chunks).toBeGreaterThan(20);
+        expect(sorted(got.cells)).toEqual(expected);
+        expect(got.pairs).toBe(events);
+      }
+    });
+  }
+
+  it('a chunk holds its own tokens once, indexed by term in corpus order', () => {
+    const docs = zipfDocuments(3, 30, 20, 0.2);
+    const streams = writeStreams(docs, 3, 'index');
+    const lengths = streamLengths(streams);
+    const total = lengths.reduce((s, n) => s + n, 0);
+    const chunk = loadChunk(streams, lengths, 50, 170, 4, N_TERMS, 0);
+    const stream = docs.flatMap((d) => [...d, DOCUMENT_END]);
+    expect(total).toBe(stream.length);
+    // the tokens either side that windows reach, then sentinels
+    expect([...chunk.ids.subarray(1, chunk.ids.length - 1)]).toEqual(stream.slice(46, 174));
+    expect(chunk.ids[0]).toBe(DOCUMENT_END);
+    expect(chunk.ids[chunk.ids.length - 1]).toBe(DOCUMENT_END);
+    for (let t = 0; t < N_TERMS; t++) {
+      const own = [];
+      for (let g = 50; g < 170; g++) if (stream[g] === t) own.push(g - 46 + 1);
+      expect([...chunk.positions.subarray(chunk.rowStart[t], chunk.rowStart[t + 1])]).toEqual(own);
+    }
+    const ends = [];
+    for (let g = 50; g < 170; g++) if (stream[g] === DOCUMENT_END) ends.push(g - 46 + 1);
+    expect([...chunk.documentEnds]).toEqual(ends);
+  });
+});
