@@ -234,8 +234,8 @@ async function buildAndPublish(
     },
     counts: (s) => ({ documents: s.documents, tokens: s.tokens, distinctTerms: s.distinctTerms, vocabulary: s.vocabulary }),
   });
-  // Later stages read the vocabulary back from the stage's file, whether fresh or reused: one code path.
-  const vocab = readVocabulary(path.join(vocabStage.dir, 'vocab.arrow'));
+  // A reused vocabulary is read back from the stage's file; a fresh one is the one just written there.
+  const vocab = fresh !== null ? (fresh as TermsResult).vocab : readVocabulary(path.join(vocabStage.dir, 'vocab.arrow'));
   const nCols = cfg.contexts.type === 'document' ? vocabStage.summary.documents : vocab.terms.length;
   const ranges = partitionRows(vocab, cfg.contexts, nCols, cfg.output.parts);
 

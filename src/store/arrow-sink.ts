@@ -8,14 +8,22 @@ import { AsyncByteQueue, makeData, RecordBatch, RecordBatchFileWriter, Struct, U
 import { wrapWriteError, writeBytesOrThrow } from './atomic.js';
 
 const encoder = new TextEncoder();
+const SURROGATE = /[\uD800-\uDFFF]/;
 
 /** Utf8 column data for `strings` (no nulls). */
 export function utf8Data(strings: readonly string[]): Data<Utf8Type> {
-  const encoded = strings.map((s) => encoder.encode(s));
   const offsets = new Int32Array(strings.length + 1);
-  for (let i = 0; i < encoded.length; i++) offsets[i + 1] = offsets[i] + encoded[i].length;
-  const bytes = new Uint8Array(offsets[strings.length]);
-  for (let i = 0; i < encoded.length; i++) bytes.set(encoded[i], offsets[i]);
+  // one encoding of all the strings together, cut at each string's own byte length; with surrogates (a lone one
+  // could pair up with its neighbour's across the join) the strings are encoded one by one
+  const joined = strings.join('');
+  let bytes: Uint8Array = Buffer.from(joined, 'utf8');
+  for (let i = 0; i < strings.length; i++) offsets[i + 1] = offsets[i] + Buffer.byteLength(strings[i], 'utf8');
+  if (offsets[strings.length] !== bytes.length || SURROGATE.test(joined)) {
+    const encoded = strings.map((s) => encoder.encode(s));
+    for (let i = 0; i < encoded.length; i++) offsets[i + 1] = offsets[i] + encoded[i].length;
+    bytes = new Uint8Array(offsets[strings.length]);
+    for (let i = 0; i < encoded.length; i++) bytes.set(encoded[i], offsets[i]);
+  }
   return makeData({ type: new Utf8(), length: strings.length, nullCount: 0, valueOffsets: offsets, data: bytes });
 }
 
