@@ -239,6 +239,8 @@ async function buildAndPublish(
   const nCols = cfg.contexts.type === 'document' ? vocabStage.summary.documents : vocab.terms.length;
   const ranges = partitionRows(vocab, cfg.contexts, nCols, cfg.output.parts);
 
+  // weighted shards the count stage wrote along with the counts (in the work area's tmp/), for the weight stage
+  let prepared: { dir: string; entries: number[] } | null = null;
   const countStage = await stages.run<CountSummary>({
     name: 'count',
     key: countKey,
@@ -249,7 +251,10 @@ async function buildAndPublish(
       const streams = fresh !== null ? (fresh as TermsResult).streams
         : await tokenStreams(files, cfg, exec, vocab, progress, totalBytes, await area.temporaryFolder('tokens'));
       const chunkTokens = opts.chunkTokens ?? chunkTokensFor(cfg.memoryMiB);
-      const r = await countPairs(cfg, exec, streams, vocab.terms.length, nCols, ranges, dir, chunkTokens, progress);
+      // the weight stage runs after a count stage that ran: counting may write its shards on the way
+      const weigh = { weighting: cfg.weighting, normalize: cfg.normalize, valueType: cfg.output.valueType, dir: await area.temporaryFolder(`weighted-${weightKey}`) };
+      const r = await countPairs(cfg, exec, streams, vocab.terms.length, nCols, ranges, dir, chunkTokens, progress, weigh);
+      if (r.weighted !== null) prepared = { dir: weigh.dir, entries: r.weighted };
       await fsp.rm(path.join(dir, 'spill'), { recursive: true, force: true });
       // the weight stage needs the marginals; keeping them here lets it run (or rerun) without recounting
       await writeMarginals(path.join(dir, MARGINALS_FILE), r.marginals);
@@ -264,6 +269,13 @@ async function buildAndPublish(
     key: weightKey,
     publish: ['weighted'],
     run: async (dir) => {
+      if (prepared !== null) {
+        const { dir: from, entries } = prepared as { dir: string; entries: number[] };
+        progress.start('weight', 0, 'parts');
+        await fsp.rename(from, path.join(dir, 'weighted'));
+        progress.end(`${cfg.weighting.scheme}, ${cfg.normalize} rows, ${sum(entries)} nonzero weights (written with the counts)`);
+        return { entries };
+      }
       await fsp.mkdir(path.join(dir, 'weighted'));
       // weightShards reads <dir>/counts: lend it the count stage's folder for the duration
       const lent = path.join(dir, 'counts');

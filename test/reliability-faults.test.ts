@@ -19,13 +19,18 @@ const area = `${out}.kindred`;
 let before: { createdAt: string; digest: ReturnType<typeof buildDigest> };
 let configCount = 0;
 
-/** A config no earlier build used (its own minCount), so every stage of its build runs. */
-function freshConfig(): string {
+/**
+ * A config no earlier build used (its own minCount), so every stage of its build runs. With the default
+ * contexts the count stage writes the weighted shards too; harmonic weights past a window of 16 are not
+ * integers, so the weight stage weights the counts on its own.
+ */
+const WEIGHT_STAGE_ALONE = { window: 20, weighting: 'harmonic' };
+function freshConfig(contexts: Record<string, unknown> = { window: 3 }): string {
   configCount++;
   return writeJson(path.join(work, `config-${configCount}.json`), {
     input: { paths: ['brown.txt'], format: 'text-lines' },
     vocabulary: { minCount: 2 + configCount },
-    contexts: { window: 3 },
+    contexts,
     output: { parts: 3 },
   });
 }
@@ -43,6 +48,7 @@ interface FaultCase {
   /** The path the one-line error must name. */
   names: RegExp;
   why?: RegExp;
+  contexts?: Record<string, unknown>;
 }
 
 const escape = (s: string): string => s.replace(/[.*+?^${}()|[\]\\]/g, '\\$&');
@@ -52,8 +58,10 @@ const cases: FaultCase[] = [
   { name: 'vocabulary stage: vocab.arrow', fault: { write: 'vocabulary-[^/]+/.*vocab\\.arrow' }, names: inTmp('vocabulary-[^/]+/vocab\\.arrow') },
   { name: 'vocabulary stage: a token stream, after 100 bytes', fault: { write: 'tokens-[^/]+/[^/]+\\.ids$', afterBytes: 100 }, names: inTmp('tokens-[^/]+/m000-000000\\.ids') },
   { name: 'count stage: a counts shard, after its first 4 KiB', fault: { write: 'counts/part-00001\\.arrow$', afterBytes: 4096 }, names: inTmp('count-[^/]+/counts/part-00001\\.arrow') },
+  { name: 'count stage: a run, after 100 bytes', fault: { write: 'spill/c00000-t00001\\.bin$', afterBytes: 100 }, names: inTmp('count-[^/]+/spill/c00000-t00001\\.bin') },
   { name: 'count stage: the marginals', fault: { write: 'marginals\\.bin' }, names: inTmp('count-[^/]+/marginals\\.bin') },
-  { name: 'weight stage: a weighted shard, after 1000 bytes', fault: { write: 'weight-[^/]+/weighted/part-00002\\.arrow$', afterBytes: 1000 }, names: inTmp('weight-[^/]+/weighted/part-00002\\.arrow') },
+  { name: 'count stage: a weighted shard written with the counts, after 1000 bytes', fault: { write: 'weighted-[^/]+/part-00002\\.arrow$', afterBytes: 1000 }, names: inTmp('weighted-[^/]+/part-00002\\.arrow') },
+  { name: 'weight stage on its own: a weighted shard, after 1000 bytes', fault: { write: 'weight-[^/]+/weighted/part-00002\\.arrow$', afterBytes: 1000 }, names: inTmp('weight-[^/]+/weighted/part-00002\\.arrow'), contexts: WEIGHT_STAGE_ALONE },
   { name: 'sealing a stage: stage.json', fault: { write: 'stage\\.json' }, names: inTmp('vocabulary-[^/]+/stage\\.json') },
   { name: 'assembling the build: a hard link', fault: { write: 'tmp/build-[^/]+/counts/part-00000\\.arrow$' }, names: inTmp('build-[^/]+/counts/part-00000\\.arrow') },
   { name: 'assembling the build: manifest.json', fault: { write: 'tmp/build-[^/]+/.*manifest\\.json' }, names: inTmp('build-[^/]+/manifest\\.json') },
@@ -65,7 +73,7 @@ const cases: FaultCase[] = [
 describe('a failed write stops the build cleanly and keeps the published build', () => {
   for (const c of cases) {
     it(c.name, async () => {
-      const r = kindred(['build', freshConfig(), '--out', out], c.fault);
+      const r = kindred(['build', freshConfig(c.contexts), '--out', out], c.fault);
       expect(r.status, r.stderr).toBe(1);
       const lines = errorLines(r.stderr);
       expect(lines).toHaveLength(1);
@@ -85,7 +93,7 @@ describe('a failed write stops the build cleanly and keeps the published build',
   }
 
   it('a rerun after a failure in the weight stage reuses the finished stages and succeeds', () => {
-    const config = freshConfig();
+    const config = freshConfig(WEIGHT_STAGE_ALONE);
     const failed = kindred(['build', config, '--out', out], { write: 'weighted/part-00000\\.arrow$', afterBytes: 100 });
     expect(failed.status).toBe(1);
     const r = kindred(['build', config, '--out', out]);

@@ -97,7 +97,7 @@ export interface KindredConfig {
   output: OutputConfig;
   vectors: VectorsConfig;
   neighbors: NeighborsConfig;
-  /** Memory budget for the counting stage in MiB; the accumulator spills sorted runs to disk past it. */
+  /** Memory budget for the counting stage in MiB: the corpus is counted in chunks of at most half of it. */
   memoryMiB: number;
   /** Worker threads of the counting stage; 0 means one per CPU core. Outputs do not depend on it. */
   workers: number;

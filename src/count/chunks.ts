@@ -77,14 +77,45 @@ export function sharedInt32(n: number): Int32Array {
 }
 
 /**
+ * Shared memory for the chunks of one count, allocated once for the largest and reused by every chunk: fresh
+ * memory is slow to touch, and a chunk's own would only be freed once every thread had let go of it.
+ */
+export class ChunkMemory {
+  private readonly ids: SharedArrayBuffer;
+  private readonly positions: SharedArrayBuffer;
+  private readonly rowStart: SharedArrayBuffer;
+
+  /** For chunks of at most `maxOwn` own entries and `margin` either side, over nRows terms. */
+  constructor(maxOwn: number, margin: number, readonly nRows: number) {
+    this.ids = new SharedArrayBuffer(4 * (maxOwn + 2 * margin + 2));
+    this.positions = new SharedArrayBuffer(4 * Math.max(1, maxOwn));
+    this.rowStart = new SharedArrayBuffer(4 * (nRows + 1));
+  }
+
+  idsOf(n: number): Int32Array {
+    return new Int32Array(this.ids, 0, n);
+  }
+
+  positionsOf(n: number): Int32Array {
+    return new Int32Array(this.positions, 0, n);
+  }
+
+  /** The term offsets, zeroed. */
+  rowStartOf(): Int32Array {
+    return new Int32Array(this.rowStart).fill(0);
+  }
+}
+
+/**
  * The shared ids array of the chunk owning stream entries [from, to), with `margin` entries either side as far
  * as the corpus goes; entries are filled in by fillSlice.
  */
-export function chunkSource(streams: CorpusStreams, lengths: number[], from: number, to: number, margin: number, nRows: number): ChunkSource {
+export function chunkSource(streams: CorpusStreams, lengths: number[], from: number, to: number, margin: number, memory: ChunkMemory): ChunkSource {
   const total = lengths.reduce((s, n) => s + n, 0);
   const lo = Math.max(0, from - margin);
   const hi = Math.min(total, to + margin);
-  const ids = sharedInt32(hi - lo + 2);
+  const nRows = memory.nRows;
+  const ids = memory.idsOf(hi - lo + 2);
   ids[0] = DOCUMENT_END;
   ids[hi - lo + 1] = DOCUMENT_END;
   return { streams, lengths, lo, ids, ownStart: 1 + from - lo, ownEnd: 1 + to - lo, nRows };
@@ -143,8 +174,9 @@ export function fillSlice(source: ChunkSource, slice: ChunkSlice): SliceCounts {
 }
 
 /** Where each slice writes its positions: per slice, the first index of each term's, and of its document ends. */
-export function sliceOffsets(counted: SliceCounts[], nRows: number): { rowStart: Int32Array; offsets: Int32Array[]; endOffsets: number[]; ends: number } {
-  const rowStart = sharedInt32(nRows + 1);
+export function sliceOffsets(counted: SliceCounts[], memory: ChunkMemory): { rowStart: Int32Array; offsets: Int32Array[]; endOffsets: number[]; ends: number } {
+  const nRows = memory.nRows;
+  const rowStart = memory.rowStartOf();
   for (const c of counted) for (let t = 0; t < nRows; t++) rowStart[t + 1] += c.counts[t];
   for (let t = 0; t < nRows; t++) rowStart[t + 1] += rowStart[t];
   const next = rowStart.slice(0, nRows);
@@ -186,11 +218,12 @@ export function chunkOf(source: ChunkSource, rowStart: Int32Array, positions: In
 export function loadChunk(
   streams: CorpusStreams, lengths: number[], from: number, to: number, margin: number, nRows: number, firstDocument: number, slices = 1,
 ): Chunk {
-  const source = chunkSource(streams, lengths, from, to, margin, nRows);
+  const memory = new ChunkMemory(to - from, margin, nRows);
+  const source = chunkSource(streams, lengths, from, to, margin, memory);
   const plan = planSlices(source, slices);
   const counted = plan.map((s) => fillSlice(source, s));
-  const { rowStart, offsets, endOffsets, ends } = sliceOffsets(counted, nRows);
-  const positions = sharedInt32(rowStart[nRows]);
+  const { rowStart, offsets, endOffsets, ends } = sliceOffsets(counted, memory);
+  const positions = memory.positionsOf(rowStart[nRows]);
   const documentEnds = sharedInt32(ends).subarray(0, ends);
   plan.forEach((s, i) => indexSlice(source, s, offsets[i], endOffsets[i], positions, documentEnds));
   return chunkOf(source, rowStart, positions, documentEnds, firstDocument);

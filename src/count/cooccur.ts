@@ -24,3 +24,8 @@ export function windowWeights(contexts: ContextsConfig): { weights: Float64Array
   }
   return { weights, scale };
 }
+
+/** Whether the window weights are integers (scaled), so that every sum is exact whatever the order of addition. */
+export function exactWeights(contexts: ContextsConfig): boolean {
+  return contexts.type === 'document' || contexts.weighting !== 'harmonic' || contexts.window <= EXACT_HARMONIC_MAX_WINDOW;
+}

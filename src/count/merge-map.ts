@@ -4,7 +4,10 @@
  * shard, with the part's marginals. Parts are independent, so the merge runs on all threads and its output
  * does not depend on which thread merged which part.
  */
-import { ShardWriter } from '../store/shards.js';
+import type { Normalization, WeightingConfig } from '../config/types.js';
+import { ShardWriter, type ShardValueType } from '../store/shards.js';
+import { weightAndNormalize } from '../weight/index.js';
+import type { Marginals } from '../weight/types.js';
 import { RunReader, SortedRowSource, mergeRowWise, readRunBatches } from './runs.js';
 
 export interface MergeSetup {
@@ -14,6 +17,18 @@ export interface MergeSetup {
   bufferRecords: number;
   /** Each row is in one run only (the corpus was counted in one chunk): the runs are copied, not summed. */
   disjoint: boolean;
+  /**
+   * With disjoint runs, the weighting too: each part's weighted shard is written as its counts are copied, with
+   * the marginals the count tasks summed (the same numbers the merge sums). Null: counts only.
+   */
+  weigh: WeighSetup | null;
+}
+
+export interface WeighSetup {
+  weighting: WeightingConfig;
+  normalize: Normalization;
+  valueType: ShardValueType;
+  marginals: Marginals;
 }
 
 export interface MergeTask {
@@ -22,6 +37,8 @@ export interface MergeTask {
   endRow: number;
   /** The part's runs. */
   runs: string[];
+  /** Where the weighted shard goes, when the setup weighs. */
+  weightedFile: string | null;
 }
 
 /** A part's marginals, in stored (scaled) units. */
@@ -31,19 +48,89 @@ export interface MergeResult {
   rowNnz: Uint32Array;
   colSums: Float64Array;
   total: number;
+  /** Entries of the weighted shard, when the setup weighs. */
+  weightedEntries: number;
+}
+
+/** Entries of a block of complete rows handed to the weighting (the last row may make it longer). */
+const WEIGHT_BLOCK_ENTRIES = 1 << 16;
+
+/** Count rows, given in order, weighted and normalized in blocks of complete rows into a shard. */
+class WeightedRows {
+  private readonly writer: ShardWriter;
+  private indptr = new Uint32Array(1024);
+  private cols = new Uint32Array(2 * WEIGHT_BLOCK_ENTRIES);
+  private values = new Float64Array(2 * WEIGHT_BLOCK_ENTRIES);
+  private firstRow = -1;
+  /** Rows of the block (the last one open) and entries. */
+  private rows = 0;
+  private fill = 0;
+
+  constructor(file: string, private readonly setup: WeighSetup) {
+    this.writer = new ShardWriter(file, setup.valueType);
+  }
+
+  get entries(): number {
+    return this.writer.entries;
+  }
+
+  /** Adds count (row r, col c); rows ascending, columns ascending within a row. */
+  add(r: number, c: number, count: number): void {
+    if (this.rows === 0 || r !== this.firstRow + this.rows - 1) {
+      if (this.fill >= WEIGHT_BLOCK_ENTRIES) this.flush();
+      if (this.rows === 0) this.firstRow = r;
+      // rows with no entry in between stay empty
+      while (this.firstRow + this.rows <= r) {
+        if (this.rows + 1 >= this.indptr.length) this.indptr = grow(this.indptr, new Uint32Array(this.indptr.length * 2));
+        this.indptr[++this.rows] = this.fill;
+      }
+    }
+    if (this.fill === this.cols.length) {
+      this.cols = grow(this.cols, new Uint32Array(this.cols.length * 2));
+      this.values = grow(this.values, new Float64Array(this.values.length * 2));
+    }
+    this.cols[this.fill] = c;
+    this.values[this.fill++] = count;
+    this.indptr[this.rows] = this.fill;
+  }
+
+  private flush(): void {
+    if (this.rows === 0) return;
+    const block = {
+      firstRow: this.firstRow,
+      indptr: this.indptr.subarray(0, this.rows + 1),
+      cols: this.cols.subarray(0, this.fill),
+      values: this.values.subarray(0, this.fill),
+    };
+    const { weighting, normalize, marginals } = this.setup;
+    this.writer.appendBlock(weightAndNormalize(block, marginals, weighting, normalize));
+    this.rows = 0;
+    this.fill = 0;
+  }
+
+  async close(): Promise<void> {
+    this.flush();
+    await this.writer.close();
+  }
+}
+
+function grow<T extends Uint32Array | Float64Array>(from: T, to: T): T {
+  to.set(from);
+  return to;
 }
 
 export class MergeMapper {
   constructor(private readonly setup: MergeSetup) {}
 
   async run(task: MergeTask, onProgress: (parts: number) => void): Promise<MergeResult> {
-    const { nCols, scale, bufferRecords, disjoint } = this.setup;
+    const { nCols, scale, bufferRecords, disjoint, weigh } = this.setup;
     const { firstRow, endRow } = task;
     const rowSums = new Float64Array(endRow - firstRow);
     const rowNnz = new Uint32Array(endRow - firstRow);
     const colSums = new Float64Array(nCols);
     let total = 0;
     const writer = new ShardWriter(task.file, 'float64');
+    const weighted = weigh !== null && task.weightedFile !== null ? new WeightedRows(task.weightedFile, weigh) : null;
     if (disjoint) {
       // the runs hold the part's rows in order, each row whole: entries go to the shard as they are
       for (const f of task.runs) {
@@ -56,11 +143,13 @@ export class MergeMapper {
             rowNnz[r - firstRow]++;
             colSums[c] += v;
             writer.append(r, c, v / scale);
+            weighted?.add(r, c, v / scale);
           }
         });
       }
       for (let i = 0; i < rowSums.length; i++) total += rowSums[i];
     } else {
+      if (weighted !== null) throw new Error('weighting while merging needs disjoint runs');
       const sources = task.runs.map((f) => new SortedRowSource(new RunReader(f, bufferRecords)));
       mergeRowWise(sources, firstRow, endRow, nCols, (r, cols, sums, n) => {
         let rowSum = 0;
@@ -78,8 +167,9 @@ export class MergeMapper {
       for (const s of sources) s.close();
     }
     await writer.close();
+    await weighted?.close();
     onProgress(1);
-    return { entries: writer.entries, rowSums, rowNnz, colSums, total };
+    return { entries: writer.entries, rowSums, rowNnz, colSums, total, weightedEntries: weighted?.entries ?? 0 };
   }
 
   finish(): Record<string, never> {

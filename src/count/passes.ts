@@ -1,20 +1,20 @@
 import { promises as fsp, rmSync } from 'node:fs';
 import path from 'node:path';
-import type { KindredConfig } from '../config/types.js';
+import type { KindredConfig, Normalization, WeightingConfig } from '../config/types.js';
 import { planSplits } from '../ingest/split.js';
 import type { IngestStats } from '../ingest/types.js';
 import { runMap, type MapRun } from '../exec/pool.js';
 import type { Progress } from '../progress.js';
 import type { Marginals } from '../weight/types.js';
-import { ShardWriter, partFileName } from '../store/shards.js';
+import { ShardWriter, partFileName, type ShardValueType } from '../store/shards.js';
 import type { Vocabulary } from '../store/vocab-file.js';
-import { windowWeights } from './cooccur.js';
+import { exactWeights, windowWeights } from './cooccur.js';
 import { RunReader, mergeSources, MAX_ROW_WISE_COLUMNS } from './runs.js';
 import type { MergeTask } from './merge-map.js';
 import { TermTable, compareBytes, type TermBytes } from './term-table.js';
 import type { RowRange } from './partition.js';
 import {
-  chunkOf, chunkSource, planChunks, planSlices, sharedInt32, sliceOffsets, streamLengths, type Chunk, type CorpusStreams, type SliceCounts,
+  ChunkMemory, chunkOf, chunkSource, planChunks, planSlices, sharedInt32, sliceOffsets, streamLengths, type Chunk, type CorpusStreams, type SliceCounts,
 } from './chunks.js';
 import type { RowsTask } from './rows-map.js';
 
@@ -167,13 +167,13 @@ export function chunkTokensFor(memoryMiB: number): number {
 
 /** Loads and indexes a chunk in one slice per thread (chunks.ts, chunk-map.ts). */
 async function loadChunkOnThreads(
-  streams: CorpusStreams, lengths: number[], from: number, to: number, margin: number, nRows: number, firstDocument: number, workers: number,
+  streams: CorpusStreams, lengths: number[], from: number, to: number, margin: number, memory: ChunkMemory, firstDocument: number, workers: number,
 ): Promise<Chunk> {
-  const source = chunkSource(streams, lengths, from, to, margin, nRows);
+  const source = chunkSource(streams, lengths, from, to, margin, memory);
   const slices = planSlices(source, workers);
   const filled = await runMap('chunk', () => ({ source }), slices.map((slice) => ({ phase: 'fill' as const, slice })), workers);
-  const { rowStart, offsets, endOffsets, ends } = sliceOffsets(filled.results as SliceCounts[], nRows);
-  const positions = sharedInt32(rowStart[nRows]);
+  const { rowStart, offsets, endOffsets, ends } = sliceOffsets(filled.results as SliceCounts[], memory);
+  const positions = memory.positionsOf(rowStart[memory.nRows]);
   const documentEnds = sharedInt32(ends).subarray(0, ends);
   const index = slices.map((slice, i) => ({ phase: 'index' as const, slice, offsets: offsets[i], endOffset: endOffsets[i], positions, documentEnds }));
   await runMap('chunk', () => ({ source }), index, workers);
@@ -208,15 +208,25 @@ const MERGE_BUFFER_BYTES = 64 << 20;
 const MIN_RUN_BUFFER_RECORDS = 4096;
 const MAX_RUN_BUFFER_RECORDS = 16384;
 
+/** Where the weighted shards go when counting may weight as well, and how to weight. */
+export interface WeighTarget {
+  weighting: WeightingConfig;
+  normalize: Normalization;
+  valueType: ShardValueType;
+  dir: string;
+}
+
 /**
  * Pass 2: co-occurrence counts into row-partitioned shards, on worker threads; returns the marginals. The
  * token streams are counted chunk by chunk (each chunk's rows written as sorted runs, a run per task), then
- * each part's runs are summed row by row into its shard.
+ * each part's runs are summed row by row into its shard. Counted in one chunk with integer weights, the
+ * count tasks' sums are the marginals already, so with a `weigh` target each part's weighted shard is
+ * written while its counts are (`weighted`: the entries of each; null when not).
  */
 export async function countPairs(
   cfg: KindredConfig, exec: CountExec, streams: CorpusStreams, nRows: number, nCols: number, ranges: RowRange[],
-  workDir: string, chunkTokens: number, progress: Progress,
-): Promise<{ marginals: Marginals; entries: number[]; pairs: number; chunks: number; threads: number }> {
+  workDir: string, chunkTokens: number, progress: Progress, weigh: WeighTarget | null = null,
+): Promise<{ marginals: Marginals; entries: number[]; weighted: number[] | null; pairs: number; chunks: number; threads: number }> {
   const spillDir = path.join(workDir, 'spill');
   await fsp.mkdir(spillDir, { recursive: true });
   const ctx = cfg.contexts;
@@ -226,14 +236,17 @@ export async function countPairs(
   const total = lengths.reduce((s, n) => s + n, 0);
   const chunks = planChunks(total, chunkTokens);
   const partRuns: string[][] = ranges.map(() => []);
+  // the count tasks' sums (scaled), complete when there is one chunk
+  const early = { rowSums: new Float64Array(nRows), rowNnz: new Uint32Array(nRows), colSums: new Float64Array(nCols) };
   let pairs = 0;
   let threads = 1;
   let firstDocument = 0;
   let removed = 0;
   progress.start('count', total, 'tokens');
   let done = 0;
+  const memory = new ChunkMemory(chunks.reduce((m, k) => Math.max(m, k.to - k.from), 0), margin, nRows);
   for (const [c, { from, to }] of chunks.entries()) {
-    const chunk = await loadChunkOnThreads(streams, lengths, from, to, margin, nRows, firstDocument, exec.workers);
+    const chunk = await loadChunkOnThreads(streams, lengths, from, to, margin, memory, firstDocument, exec.workers);
     firstDocument += chunk.documentEnds.length;
     // streams wholly behind the next chunk's reach are no longer needed
     const keepFrom = c + 1 < chunks.length ? chunks[c + 1].from - margin : total;
@@ -255,7 +268,14 @@ export async function countPairs(
     }));
     const run = await runMap('rows', () => ({ chunk, contexts: ctx, weights, nCols }), tasks, exec.workers, (n) => progress.update((done += n)));
     threads = Math.max(threads, run.threads);
-    for (const r of run.results) pairs += r.pairs;
+    for (const [j, r] of run.results.entries()) {
+      pairs += r.pairs;
+      for (let i = 0; i < r.rowSums.length; i++) {
+        early.rowSums[tasks[j].firstRow + i] += r.rowSums[i];
+        early.rowNnz[tasks[j].firstRow + i] += r.rowNnz[i];
+      }
+    }
+    for (const p of run.partials) for (let i = 0; i < nCols; i++) early.colSums[i] += p.colSums[i];
     // runs in row order within each part
     const fileOf = new Array<string>(planned.length);
     for (const [j, i] of order.entries()) fileOf[i] = tasks[j].file;
@@ -271,10 +291,19 @@ export async function countPairs(
   const maxRuns = partRuns.reduce((m, r) => Math.max(m, r.length), 1);
   const bufferRecords = Math.min(MAX_RUN_BUFFER_RECORDS, Math.max(MIN_RUN_BUFFER_RECORDS, Math.floor(MERGE_BUFFER_BYTES / 16 / maxRuns)));
   let entries: number[];
+  let weighted: number[] | null = null;
   if (nCols <= MAX_ROW_WISE_COLUMNS) {
+    // with integer weights the sums are exact, so the count tasks' sums are the marginals the merge sums
+    const fuse = weigh !== null && chunks.length === 1 && exactWeights(ctx) ? weigh : null;
+    const earlyMarginals = fuse === null ? null : scaledMarginals(early.rowSums.slice(), early.colSums.slice(), early.rowNnz, scale);
+    const weighSetup = fuse === null || earlyMarginals === null ? null
+      : { weighting: fuse.weighting, normalize: fuse.normalize, valueType: fuse.valueType, marginals: earlyMarginals };
     // one part per task on the threads, each row's entries summed in a dense scratch row
-    const tasks: MergeTask[] = ranges.map((r, i) => ({ file: partFile(i), firstRow: r.firstRow, endRow: r.endRow, runs: partRuns[i] }));
-    const merged = await runMap('merge', () => ({ nCols, scale, bufferRecords, disjoint: chunks.length === 1 }), tasks, exec.workers);
+    const tasks: MergeTask[] = ranges.map((r, i) => ({
+      file: partFile(i), firstRow: r.firstRow, endRow: r.endRow, runs: partRuns[i],
+      weightedFile: fuse === null ? null : path.join(fuse.dir, partFileName(i)),
+    }));
+    const merged = await runMap('merge', () => ({ nCols, scale, bufferRecords, disjoint: chunks.length === 1, weigh: weighSetup }), tasks, exec.workers);
     // sums of integers (scaled weights) are exact, so adding the parts' column sums in any order gives the same bits
     for (const [i, m] of merged.results.entries()) {
       rowSums.set(m.rowSums, ranges[i].firstRow);
@@ -283,6 +312,11 @@ export async function countPairs(
       sumAll += m.total;
     }
     entries = merged.results.map((m) => m.entries);
+    if (earlyMarginals !== null) {
+      const final = scaledMarginals(rowSums.slice(), colSums.slice(), rowNnz, scale);
+      if (!sameMarginals(final, earlyMarginals)) throw new Error('the count tasks\' sums differ from the merged counts\' (a bug)');
+      weighted = merged.results.map((m) => m.weightedEntries);
+    }
   } else {
     // too wide for a dense scratch row: a heap over each part's runs
     entries = [];
@@ -300,9 +334,23 @@ export async function countPairs(
     }
   }
   for (const runs of partRuns) for (const f of runs) rmSync(f, { force: true });
-  for (let r = 0; r < nRows; r++) rowSums[r] /= scale;
-  for (let c = 0; c < nCols; c++) colSums[c] /= scale;
-  const marginals: Marginals = { nRows, nCols, rowSums, colSums, total: sumAll / scale, rowNnz };
+  const marginals = scaledMarginals(rowSums, colSums, rowNnz, scale, sumAll);
   progress.end(`${pairs} pair events, ${entries.reduce((s, n) => s + n, 0)} nonzero counts, ${chunks.length} chunk${chunks.length > 1 ? 's' : ''} (${threads} thread${threads > 1 ? 's' : ''})`);
-  return { marginals, entries, pairs, chunks: chunks.length, threads };
+  return { marginals, entries, weighted, pairs, chunks: chunks.length, threads };
+}
+
+/** Marginals from scaled row and column sums (divided in place); total: the scaled sum of all cells, else the row sums' sum. */
+function scaledMarginals(rowSums: Float64Array, colSums: Float64Array, rowNnz: Uint32Array, scale: number, total?: number): Marginals {
+  let sum = total ?? 0;
+  if (total === undefined) for (let r = 0; r < rowSums.length; r++) sum += rowSums[r];
+  for (let r = 0; r < rowSums.length; r++) rowSums[r] /= scale;
+  for (let c = 0; c < colSums.length; c++) colSums[c] /= scale;
+  return { nRows: rowSums.length, nCols: colSums.length, rowSums, colSums, total: sum / scale, rowNnz };
+}
+
+function sameMarginals(a: Marginals, b: Marginals): boolean {
+  if (a.total !== b.total) return false;
+  for (let r = 0; r < a.nRows; r++) if (a.rowSums[r] !== b.rowSums[r] || a.rowNnz[r] !== b.rowNnz[r]) return false;
+  for (let c = 0; c < a.nCols; c++) if (a.colSums[c] !== b.colSums[c]) return false;
+  return true;
 }

@@ -32,36 +32,100 @@ export interface RowsResult {
   entries: number;
   /** Pair events counted (context tokens added to rows). */
   pairs: number;
+  /** Per row of the task: the sum of its cells (scaled, summed in column order) and its nonzero cells, in this chunk. */
+  rowSums: Float64Array;
+  rowNnz: Uint32Array;
 }
 
-/** Rows of a chunk as sorted runs. */
-export class RowsMapper {
-  /** Sums by column of the row being counted, and the columns it touched. */
-  private sums: Float64Array | null = null;
-  private touched: Uint32Array | null = null;
+/** A mapper's column sums (scaled) over all the rows it counted. */
+export interface RowsPartial {
+  colSums: Float64Array;
+}
 
-  constructor(private readonly setup: RowsSetup) {}
+/** A task's run file and the sums of its rows; every mapper's column sums. */
+class RowOutput {
+  private readonly run: RunWriter;
+  readonly rowSums: Float64Array;
+  readonly rowNnz: Uint32Array;
+
+  constructor(private readonly task: RowsTask, private readonly colSums: Float64Array) {
+    this.run = new RunWriter(task.file);
+    this.rowSums = new Float64Array(task.endRow - task.firstRow);
+    this.rowNnz = new Uint32Array(task.endRow - task.firstRow);
+  }
+
+  get records(): number {
+    return this.run.records;
+  }
+
+  /** Row r's cells: columns cols (ascending), values sums[col]. */
+  appendRow(r: number, cols: Uint32Array, sums: Float64Array): void {
+    const { colSums } = this;
+    let rowSum = 0;
+    for (let i = 0; i < cols.length; i++) {
+      const c = cols[i];
+      rowSum += sums[c];
+      colSums[c] += sums[c];
+    }
+    this.rowSums[r - this.task.firstRow] = rowSum;
+    this.rowNnz[r - this.task.firstRow] = cols.length;
+    this.run.appendRow(r, cols, sums);
+  }
+
+  /** One cell of row r, rows and columns in ascending order. */
+  append(r: number, c: number, value: number): void {
+    this.rowSums[r - this.task.firstRow] += value;
+    this.rowNnz[r - this.task.firstRow]++;
+    this.colSums[c] += value;
+    this.run.append(r, c, value);
+  }
+
+  close(): void {
+    this.run.close();
+  }
+}
+
+/**
+ * Sums by column of the row being counted, and the columns it touched: kept by the thread from chunk to chunk
+ * (all zero between rows), as fresh memory is slow to touch.
+ */
+let scratch: { sums: Float64Array; touched: Uint32Array } | null = null;
+
+function scratchFor(nCols: number): { sums: Float64Array; touched: Uint32Array } {
+  if (scratch === null || scratch.sums.length !== nCols) scratch = { sums: new Float64Array(nCols), touched: new Uint32Array(nCols) };
+  return scratch;
+}
+
+/** Rows of a chunk as sorted runs, with their sums. */
+export class RowsMapper {
+  private readonly colSums: Float64Array;
+
+  constructor(private readonly setup: RowsSetup) {
+    this.colSums = new Float64Array(setup.nCols);
+  }
 
   async run(task: RowsTask, onProgress: (units: number) => void): Promise<RowsResult> {
-    const out = new RunWriter(task.file);
+    const out = new RowOutput(task, this.colSums);
     let pairs = 0;
     try {
       pairs = this.setup.contexts.type === 'document' ? this.documentRows(task, out) : this.windowRows(task, out);
+    } catch (e) {
+      scratch = null; // it may hold a row half counted
+      throw e;
     } finally {
       out.close();
     }
     onProgress(task.progress);
-    return { entries: out.records, pairs };
+    return { entries: out.records, pairs, rowSums: out.rowSums, rowNnz: out.rowNnz };
   }
 
-  private windowRows(task: RowsTask, out: RunWriter): number {
+  private windowRows(task: RowsTask, out: RowOutput): number {
     const { chunk, contexts, weights, nCols } = this.setup;
     const { ids, positions, rowStart } = chunk;
     const k = contexts.window;
     const left = contexts.direction !== 'right' ? k : 0;
     const right = contexts.direction !== 'left' ? k : 0;
-    const sums = this.sums ?? (this.sums = new Float64Array(nCols));
-    const touched = this.touched ?? (this.touched = new Uint32Array(nCols));
+    const { sums, touched } = scratchFor(nCols);
     let pairs = 0;
     for (let r = task.firstRow; r < task.endRow; r++) {
       let n = 0;
@@ -99,7 +163,7 @@ export class RowsMapper {
   }
 
   /** Term × document counts: a row's occurrences are in corpus order, so its documents come out ascending. */
-  private documentRows(task: RowsTask, out: RunWriter): number {
+  private documentRows(task: RowsTask, out: RowOutput): number {
     const { chunk } = this.setup;
     const { positions, rowStart, documentEnds, firstDocument } = chunk;
     const nEnds = documentEnds.length;
@@ -133,7 +197,7 @@ export class RowsMapper {
     return pairs;
   }
 
-  finish(): Record<string, never> {
-    return {};
+  finish(): RowsPartial {
+    return { colSums: this.colSums };
   }
 }

@@ -3,7 +3,7 @@ import type { InputSplit } from '../ingest/split.js';
 import {
   VocabularyMapper, transferablesOf as countTransferables, type SplitResult, type VocabularyPartial, type VocabularySetup,
 } from '../count/map.js';
-import { RowsMapper, type RowsResult, type RowsSetup, type RowsTask } from '../count/rows-map.js';
+import { RowsMapper, type RowsPartial, type RowsResult, type RowsSetup, type RowsTask } from '../count/rows-map.js';
 import { ChunkMapper, type ChunkResult, type ChunkSetup, type ChunkTask } from '../count/chunk-map.js';
 import type { WeightResult, WeightSetup, WeightTask } from '../weight/map.js';
 import type { MergeResult, MergeSetup, MergeTask } from '../count/merge-map.js';
@@ -17,7 +17,7 @@ export interface Mapper<Task, Result, Partial> {
 export interface MapKinds {
   vocabulary: { setup: VocabularySetup; task: InputSplit; result: SplitResult; partial: VocabularyPartial };
   chunk: { setup: ChunkSetup; task: ChunkTask; result: ChunkResult; partial: Record<string, never> };
-  rows: { setup: RowsSetup; task: RowsTask; result: RowsResult; partial: Record<string, never> };
+  rows: { setup: RowsSetup; task: RowsTask; result: RowsResult; partial: RowsPartial };
   weight: { setup: WeightSetup; task: WeightTask; result: WeightResult; partial: Record<string, never> };
   merge: { setup: MergeSetup; task: MergeTask; result: MergeResult; partial: Record<string, never> };
 }
@@ -55,15 +55,20 @@ export async function createMapper(kind: MapKind, setup: unknown): Promise<AnyMa
 /** The typed arrays of a partial, for a zero-copy hand-over between threads. */
 export function transferablesOf(partial: AnyPartial): ArrayBuffer[] {
   if ('terms' in partial) return countTransferables(partial as VocabularyPartial);
-  return [];
+  return ownBuffers(partial);
 }
 
 /** Typed arrays of a task result worth moving back rather than copying. */
 export function resultTransferables(result: unknown): ArrayBuffer[] {
-  if (result === null || typeof result !== 'object') return [];
-  const counts = (result as Partial<ChunkResult & object>).counts;
-  if (counts !== undefined) return [counts.buffer as ArrayBuffer];
-  const r = result as Partial<MergeResult>;
-  if (r.colSums === undefined || r.rowSums === undefined || r.rowNnz === undefined) return [];
-  return [r.colSums.buffer, r.rowSums.buffer, r.rowNnz.buffer] as ArrayBuffer[];
+  return ownBuffers(result);
+}
+
+/** The buffers of the typed arrays among an object's fields (not shared memory, each once). */
+function ownBuffers(value: unknown): ArrayBuffer[] {
+  if (value === null || typeof value !== 'object') return [];
+  const out: ArrayBuffer[] = [];
+  for (const field of Object.values(value)) {
+    if (ArrayBuffer.isView(field) && field.buffer instanceof ArrayBuffer && field.buffer.byteLength > 0 && !out.includes(field.buffer)) out.push(field.buffer);
+  }
+  return out;
 }
