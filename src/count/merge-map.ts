@@ -52,8 +52,11 @@ export interface MergeResult {
   weightedEntries: number;
 }
 
-/** Entries of a block of complete rows handed to the weighting (the last row may make it longer). */
-const WEIGHT_BLOCK_ENTRIES = 1 << 16;
+/**
+ * Entries of a block of complete rows handed to the weighting (the last row may make it longer); small, so that
+ * the weighting's arrays are reused from the allocator's heap instead of mapped afresh for every block.
+ */
+const WEIGHT_BLOCK_ENTRIES = 1 << 13;
 
 /** Count rows, given in order, weighted and normalized in blocks of complete rows into a shard. */
 class WeightedRows {
