@@ -1,5 +1,6 @@
 import { openSync, readSync, closeSync } from 'node:fs';
 import { wrapWriteError, writeBytesOrThrow } from '../store/atomic.js';
+import { giveBuffer, takeBuffer } from '../store/buffer-pool.js';
 
 /** A spilled run: sorted (row u32, col u32, value f64) records, 16 bytes each, little-endian. */
 const RECORD = 16;
@@ -7,7 +8,7 @@ const BUFFER_RECORDS = 1 << 16;
 
 export class RunWriter {
   private readonly fd: number;
-  private readonly buf = Buffer.allocUnsafeSlow(RECORD * BUFFER_RECORDS);
+  private readonly buf = takeBuffer(RECORD * BUFFER_RECORDS);
   private readonly u32 = new Uint32Array(this.buf.buffer, this.buf.byteOffset, (RECORD / 4) * BUFFER_RECORDS);
   private readonly f64 = new Float64Array(this.buf.buffer, this.buf.byteOffset, (RECORD / 8) * BUFFER_RECORDS);
   private fill = 0;
@@ -55,8 +56,12 @@ export class RunWriter {
   }
 
   close(): void {
-    this.flush();
-    closeSync(this.fd);
+    try {
+      this.flush();
+    } finally {
+      closeSync(this.fd);
+      giveBuffer(this.buf);
+    }
   }
 }
 
@@ -89,7 +94,7 @@ export class RunReader implements SortedSource {
 
   constructor(readonly file: string, bufferRecords = BUFFER_RECORDS) {
     const records = Math.max(1, bufferRecords);
-    this.buf = Buffer.allocUnsafeSlow(RECORD * records);
+    this.buf = takeBuffer(RECORD * records);
     this.u32 = new Uint32Array(this.buf.buffer, this.buf.byteOffset, (RECORD / 4) * records);
     this.f64 = new Float64Array(this.buf.buffer, this.buf.byteOffset, (RECORD / 8) * records);
     this.fd = openSync(file, 'r');
@@ -101,6 +106,7 @@ export class RunReader implements SortedSource {
     if (this.done) return;
     this.done = true;
     closeSync(this.fd);
+    giveBuffer(this.buf);
   }
 
   advance(): void {
@@ -128,7 +134,7 @@ export class RunReader implements SortedSource {
  */
 export function readRunBatches(file: string, bufferRecords: number, onBatch: (u32: Uint32Array, f64: Float64Array, n: number) => void): void {
   const records = Math.max(1, bufferRecords);
-  const buf = Buffer.allocUnsafeSlow(RECORD * records);
+  const buf = takeBuffer(RECORD * records);
   const u32 = new Uint32Array(buf.buffer, buf.byteOffset, (RECORD / 4) * records);
   const f64 = new Float64Array(buf.buffer, buf.byteOffset, (RECORD / 8) * records);
   const fd = openSync(file, 'r');
@@ -142,6 +148,7 @@ export function readRunBatches(file: string, bufferRecords: number, onBatch: (u3
     }
   } finally {
     closeSync(fd);
+    giveBuffer(buf);
   }
 }
 

@@ -6,6 +6,7 @@
  */
 import { closeSync, openSync } from 'node:fs';
 import { wrapWriteError, writeBytesOrThrow } from '../store/atomic.js';
+import { giveBuffer, takeBuffer } from '../store/buffer-pool.js';
 
 /** Marks the end of a document (term ids are ≥ 0). */
 export const DOCUMENT_END = -2;
@@ -21,8 +22,8 @@ export interface TokenStreamRef {
 
 export class TokenStreamWriter {
   private readonly fd: number;
-  private readonly ids = new Int32Array(BUFFER_IDS);
-  private readonly bytes = Buffer.from(this.ids.buffer);
+  private readonly bytes = takeBuffer(4 * BUFFER_IDS);
+  private readonly ids = new Int32Array(this.bytes.buffer, this.bytes.byteOffset, BUFFER_IDS);
   private fill = 0;
 
   constructor(readonly file: string) {
@@ -44,7 +45,11 @@ export class TokenStreamWriter {
   }
 
   close(): void {
-    this.flush();
-    closeSync(this.fd);
+    try {
+      this.flush();
+    } finally {
+      closeSync(this.fd);
+      giveBuffer(this.bytes);
+    }
   }
 }

@@ -5,6 +5,7 @@ import { RecordBatchReader, Schema, Field, makeData, tableFromIPC, Float32, Floa
 import type { Table, AsyncRecordBatchFileReader, AsyncRecordBatchStreamReader } from 'apache-arrow';
 import { KindredError } from '../errors.js';
 import type { RowBlock } from '../weight/types.js';
+import { giveBuffer, takeBuffer } from './buffer-pool.js';
 import { ArrowFileSink } from './arrow-sink.js';
 
 /** The file name of shard `index`: part-00000.arrow, part-00001.arrow … */
@@ -26,11 +27,13 @@ const BATCH_ENTRIES = 1 << 16;
  */
 export class ShardWriter {
   private readonly sink: ArrowFileSink;
-  private rows = new Uint32Array(BATCH_ENTRIES);
-  private cols = new Uint32Array(BATCH_ENTRIES);
-  private values: Float64Array = new Float64Array(BATCH_ENTRIES);
+  /** One pooled buffer holds the batch's columns: values (float64), rows, cols, and a float32 copy of values. */
+  private readonly buf = takeBuffer(20 * BATCH_ENTRIES);
+  private readonly values = new Float64Array(this.buf.buffer, this.buf.byteOffset, BATCH_ENTRIES);
+  private readonly rows = new Uint32Array(this.buf.buffer, this.buf.byteOffset + 8 * BATCH_ENTRIES, BATCH_ENTRIES);
+  private readonly cols = new Uint32Array(this.buf.buffer, this.buf.byteOffset + 12 * BATCH_ENTRIES, BATCH_ENTRIES);
   /** The float32 copy of a batch's values, for float32 shards. */
-  private values32: Float32Array | null = null;
+  private readonly values32 = new Float32Array(this.buf.buffer, this.buf.byteOffset + 16 * BATCH_ENTRIES, BATCH_ENTRIES);
   private fill = 0;
   entries = 0;
 
@@ -87,7 +90,6 @@ export class ShardWriter {
   private children(n: number): Data[] {
     let values: Float32Array | Float64Array = this.values.subarray(0, n);
     if (this.valueType === 'float32') {
-      this.values32 ??= new Float32Array(BATCH_ENTRIES);
       this.values32.set(values);
       values = this.values32.subarray(0, n);
     }
@@ -101,7 +103,11 @@ export class ShardWriter {
   /** Writes the footer, syncs and closes the file. */
   async close(): Promise<void> {
     this.flushBatch();
-    await this.sink.close(() => this.children(0));
+    try {
+      await this.sink.close(() => this.children(0));
+    } finally {
+      giveBuffer(this.buf);
+    }
   }
 }
 
