@@ -45,6 +45,8 @@ export interface ChunkSource {
   ownStart: number;
   ownEnd: number;
   nRows: number;
+  /** All the memory the positions may take, touched by the slices in parallel before the index is written. */
+  positionSpace: Int32Array;
 }
 
 /** One slice of a chunk's ids, [start, end) as indexes into ids. */
@@ -96,6 +98,10 @@ export class ChunkMemory {
     return new Int32Array(this.ids, 0, n);
   }
 
+  get positionCapacity(): number {
+    return this.positions.byteLength / 4;
+  }
+
   positionsOf(n: number): Int32Array {
     return new Int32Array(this.positions, 0, n);
   }
@@ -118,7 +124,7 @@ export function chunkSource(streams: CorpusStreams, lengths: number[], from: num
   const ids = memory.idsOf(hi - lo + 2);
   ids[0] = DOCUMENT_END;
   ids[hi - lo + 1] = DOCUMENT_END;
-  return { streams, lengths, lo, ids, ownStart: 1 + from - lo, ownEnd: 1 + to - lo, nRows };
+  return { streams, lengths, lo, ids, ownStart: 1 + from - lo, ownEnd: 1 + to - lo, nRows, positionSpace: memory.positionsOf(memory.positionCapacity) };
 }
 
 /** The chunk's entries between its sentinels cut into `n` slices. */
@@ -161,6 +167,11 @@ export function fillSlice(source: ChunkSource, slice: ChunkSlice): SliceCounts {
     }
     fileStart = fileEnd;
   }
+  // this slice's share of the positions' memory, touched here (fresh pages are slow to touch, and the index
+  // pass writes them in no order, from every slice at once)
+  const len = ids.length - 2;
+  const space = source.positionSpace;
+  space.fill(0, Math.floor((space.length * (slice.start - 1)) / len), Math.floor((space.length * (slice.end - 1)) / len));
   const counts = new Int32Array(source.nRows);
   let ends = 0;
   const start = Math.max(slice.start, source.ownStart);
