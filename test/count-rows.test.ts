@@ -7,7 +7,8 @@
  *  - document contexts: every in-vocabulary token adds 1 to cell (token, its document's corpus-wide index).
  * The streams are written with the vocabulary pass's TokenStreamWriter, in several files numbered by two
  * mappers with their own ids, and counted in one chunk and in chunks far smaller than a document, so windows
- * cross chunk edges; every run must be sorted and the runs together must hold exactly the definition's cells.
+ * cross chunk edges, with chunk ids of 2 bytes (a small vocabulary) and of 4; every run must be sorted and
+ * the runs together must hold exactly the definition's cells.
  */
 import { describe, it, expect, beforeAll, afterAll } from 'vitest';
 import { mkdtempSync, rmSync } from 'node:fs';
@@ -120,7 +121,7 @@ function byDefinition(docs: Int32Array[], ctx: ContextsConfig): Map<string, numb
 }
 
 /** Counts the streams chunk by chunk with row tasks of `rowsPerTask` rows; the cells of all runs, summed. */
-async function counted(streams: CorpusStreams, ctx: ContextsConfig, chunkTokens: number, rowsPerTask: number): Promise<{ cells: Map<string, number>; pairs: number; chunks: number }> {
+async function counted(streams: CorpusStreams, ctx: ContextsConfig, chunkTokens: number, rowsPerTask: number, wide: boolean): Promise<{ cells: Map<string, number>; pairs: number; chunks: number }> {
   const lengths = streamLengths(streams);
   const chunks = planChunks(lengths.reduce((s, n) => s + n, 0), chunkTokens);
   const { weights } = windowWeights(ctx);
@@ -129,7 +130,8 @@ async function counted(streams: CorpusStreams, ctx: ContextsConfig, chunkTokens:
   let firstDocument = 0;
   let run = 0;
   for (const { from, to } of chunks) {
-    const chunk = loadChunk(streams, lengths, from, to, ctx.type === 'document' ? 0 : ctx.window, N_TERMS, firstDocument);
+    const chunk = loadChunk(streams, lengths, from, to, ctx.type === 'document' ? 0 : ctx.window, N_TERMS, firstDocument, 3, wide);
+    expect(chunk.ids instanceof Int32Array).toBe(wide);
     firstDocument += chunk.documentEnds.length;
     const mapper = new RowsMapper({ chunk, contexts: ctx, weights, nCols: ctx.type === 'document' ? 10_000 : N_TERMS });
     for (let first = 0; first < N_TERMS; first += rowsPerTask) {
@@ -173,8 +175,8 @@ describe('chunked row counting equals counting by definition', () => {
       const expected = sorted(byDefinition(docs, ctx));
       const events = [...byDefinition(docs, { ...ctx, weighting: 'uniform' }).values()].reduce((s, v) => s + v, 0);
       expect(expected.length).toBeGreaterThan(300);
-      for (const [chunkTokens, rowsPerTask] of [[1e9, N_TERMS], [1e9, 7], [37, 11], [5, 60]]) {
-        const got = await counted(streams, ctx, chunkTokens, rowsPerTask);
+      for (const [chunkTokens, rowsPerTask, wide] of [[1e9, N_TERMS, false], [1e9, 7, true], [37, 11, false], [5, 60, true]] as const) {
+        const got = await counted(streams, ctx, chunkTokens, rowsPerTask, wide);
         if (chunkTokens < 1e9) expect(got.chunks).toBeGreaterThan(20);
         expect(sorted(got.cells)).toEqual(expected);
         expect(got.pairs).toBe(events);
@@ -182,25 +184,28 @@ describe('chunked row counting equals counting by definition', () => {
     });
   }
 
-  it('a chunk holds its own tokens once, indexed by term in corpus order', () => {
-    const docs = zipfDocuments(3, 30, 20, 0.2);
-    const streams = writeStreams(docs, 3, 'index');
-    const lengths = streamLengths(streams);
-    const total = lengths.reduce((s, n) => s + n, 0);
-    const chunk = loadChunk(streams, lengths, 50, 170, 4, N_TERMS, 0);
-    const stream = docs.flatMap((d) => [...d, DOCUMENT_END]);
-    expect(total).toBe(stream.length);
-    // the tokens either side that windows reach, then sentinels
-    expect([...chunk.ids.subarray(1, chunk.ids.length - 1)]).toEqual(stream.slice(46, 174));
-    expect(chunk.ids[0]).toBe(DOCUMENT_END);
-    expect(chunk.ids[chunk.ids.length - 1]).toBe(DOCUMENT_END);
-    for (let t = 0; t < N_TERMS; t++) {
-      const own = [];
-      for (let g = 50; g < 170; g++) if (stream[g] === t) own.push(g - 46 + 1);
-      expect([...chunk.positions.subarray(chunk.rowStart[t], chunk.rowStart[t + 1])]).toEqual(own);
-    }
-    const ends = [];
-    for (let g = 50; g < 170; g++) if (stream[g] === DOCUMENT_END) ends.push(g - 46 + 1);
-    expect([...chunk.documentEnds]).toEqual(ends);
-  });
+  for (const wide of [false, true]) {
+    it(`a chunk holds its own tokens once, indexed by term in corpus order (${wide ? '4' : '2'}-byte ids)`, () => {
+      const docs = zipfDocuments(3, 30, 20, 0.2);
+      const streams = writeStreams(docs, 3, `index-${wide}`);
+      const lengths = streamLengths(streams);
+      const total = lengths.reduce((s, n) => s + n, 0);
+      const chunk = loadChunk(streams, lengths, 50, 170, 4, N_TERMS, 0, 2, wide);
+      const stream = docs.flatMap((d) => [...d, DOCUMENT_END]);
+      expect(total).toBe(stream.length);
+      // the tokens either side that windows reach, then sentinels; narrow ids code −1 and DOCUMENT_END as 0xFFFE, 0xFFFF
+      const code = (id: number): number => (wide || id >= 0 ? id : id === DOCUMENT_END ? 0xffff : 0xfffe);
+      expect([...chunk.ids.subarray(1, chunk.ids.length - 1)]).toEqual(stream.slice(46, 174).map(code));
+      expect(chunk.ids[0]).toBe(code(DOCUMENT_END));
+      expect(chunk.ids[chunk.ids.length - 1]).toBe(code(DOCUMENT_END));
+      for (let t = 0; t < N_TERMS; t++) {
+        const own = [];
+        for (let g = 50; g < 170; g++) if (stream[g] === t) own.push(g - 46 + 1);
+        expect([...chunk.positions.subarray(chunk.rowStart[t], chunk.rowStart[t + 1])]).toEqual(own);
+      }
+      const ends = [];
+      for (let g = 50; g < 170; g++) if (stream[g] === DOCUMENT_END) ends.push(g - 46 + 1);
+      expect([...chunk.documentEnds]).toEqual(ends);
+    });
+  }
 });

@@ -3,14 +3,15 @@
  * final term ids. It is counted in chunks of at most a budgeted number of tokens. A chunk is loaded into
  * shared memory with the tokens either side that its windows reach, between two DOCUMENT_END sentinels, and
  * indexed: the positions of its own tokens grouped by term id (a counting sort), so that the row of a term is
- * counted from that term's occurrences alone, on any thread. Memory: 8 bytes a token of the chunk (ids and
- * positions), whatever the corpus size.
+ * counted from that term's occurrences alone, on any thread. Memory: at most 8 bytes a token of the chunk (ids
+ * and positions), whatever the corpus size.
  *
  * Loading runs in slices, on the threads (src/count/chunk-map.ts): each slice is read, mapped to final ids and
  * its terms counted (fillSlice); once every slice's counts are known, each slice writes its positions at its
  * own offsets (indexSlice), so the index is the same whatever the slices.
  */
 import { closeSync, openSync, readSync, statSync } from 'node:fs';
+import { giveBuffer, takeBuffer } from '../store/buffer-pool.js';
 import { DOCUMENT_END, type TokenStreamRef } from './token-stream.js';
 
 /** The token streams of the splits, in corpus order, and per vocabulary mapper its term ids' final ids (-1: none). */
@@ -20,10 +21,27 @@ export interface CorpusStreams {
   finalIds: Int32Array[];
 }
 
+/**
+ * A chunk's ids: int32 (out of the vocabulary −1, document end DOCUMENT_END), or, for a vocabulary of fewer
+ * than 65,534 terms, uint16 (half the memory to touch and to read), the two codes then 0xFFFE and 0xFFFF.
+ * Either way an entry is a term id exactly when `(id >>> 0) < nRows`.
+ */
+export type ChunkIds = Int32Array | Uint16Array;
+
+/** The code of a document end in a chunk's ids. */
+export function documentEndIn(ids: ChunkIds): number {
+  return ids instanceof Uint16Array ? NARROW_DOCUMENT_END : DOCUMENT_END;
+}
+
+const NARROW_OUT = 0xfffe;
+const NARROW_DOCUMENT_END = 0xffff;
+/** Most terms whose ids fit the narrow codes. */
+const NARROW_MAX_ROWS = NARROW_OUT;
+
 /** A loaded chunk, in shared memory (the typed arrays' buffers are SharedArrayBuffers). */
 export interface Chunk {
-  /** Final ids of the stream entries [lo, hi): the chunk's own [from, to) and the margins, DOCUMENT_END sentinels at both ends. */
-  ids: Int32Array;
+  /** Final ids of the stream entries [lo, hi): the chunk's own [from, to) and the margins, document-end sentinels at both ends. */
+  ids: ChunkIds;
   /** Index into ids of the chunk's first own token and one past its last. */
   ownStart: number;
   ownEnd: number;
@@ -41,7 +59,7 @@ export interface ChunkSource {
   streams: CorpusStreams;
   lengths: number[];
   lo: number;
-  ids: Int32Array;
+  ids: ChunkIds;
   ownStart: number;
   ownEnd: number;
   nRows: number;
@@ -86,16 +104,19 @@ export class ChunkMemory {
   private readonly ids: SharedArrayBuffer;
   private readonly positions: SharedArrayBuffer;
   private readonly rowStart: SharedArrayBuffer;
+  /** Whether ids are uint16 (see ChunkIds). */
+  readonly narrow: boolean;
 
-  /** For chunks of at most `maxOwn` own entries and `margin` either side, over nRows terms. */
-  constructor(maxOwn: number, margin: number, readonly nRows: number) {
-    this.ids = new SharedArrayBuffer(4 * (maxOwn + 2 * margin + 2));
+  /** For chunks of at most `maxOwn` own entries and `margin` either side, over nRows terms (`wide`: int32 ids whatever nRows). */
+  constructor(maxOwn: number, margin: number, readonly nRows: number, wide = false) {
+    this.narrow = !wide && nRows <= NARROW_MAX_ROWS;
+    this.ids = new SharedArrayBuffer((this.narrow ? 2 : 4) * (maxOwn + 2 * margin + 2));
     this.positions = new SharedArrayBuffer(4 * Math.max(1, maxOwn));
     this.rowStart = new SharedArrayBuffer(4 * (nRows + 1));
   }
 
-  idsOf(n: number): Int32Array {
-    return new Int32Array(this.ids, 0, n);
+  idsOf(n: number): ChunkIds {
+    return this.narrow ? new Uint16Array(this.ids, 0, n) : new Int32Array(this.ids, 0, n);
   }
 
   get positionCapacity(): number {
@@ -122,8 +143,8 @@ export function chunkSource(streams: CorpusStreams, lengths: number[], from: num
   const hi = Math.min(total, to + margin);
   const nRows = memory.nRows;
   const ids = memory.idsOf(hi - lo + 2);
-  ids[0] = DOCUMENT_END;
-  ids[hi - lo + 1] = DOCUMENT_END;
+  ids[0] = documentEndIn(ids);
+  ids[hi - lo + 1] = documentEndIn(ids);
   return { streams, lengths, lo, ids, ownStart: 1 + from - lo, ownEnd: 1 + to - lo, nRows, positionSpace: memory.positionsOf(memory.positionCapacity) };
 }
 
@@ -133,6 +154,9 @@ export function planSlices(source: ChunkSource, n: number): ChunkSlice[] {
   return Array.from({ length: n }, (_, i) => ({ start: 1 + Math.floor((len * i) / n), end: 1 + Math.floor((len * (i + 1)) / n) }));
 }
 
+/** Stream entries read at a time into the narrow chunks' int32 staging buffer. */
+const STAGE_ENTRIES = 1 << 16;
+
 /** Reads a slice's stream entries into the chunk as final ids; counts its own tokens by term and its document ends. */
 export function fillSlice(source: ChunkSource, slice: ChunkSlice): SliceCounts {
   const { streams, lengths, ids } = source;
@@ -140,48 +164,74 @@ export function fillSlice(source: ChunkSource, slice: ChunkSlice): SliceCounts {
   const to = source.lo + slice.end - 1;
   let at = slice.start;
   let fileStart = 0;
-  for (let f = 0; f < lengths.length && from < to; f++) {
-    const fileEnd = fileStart + lengths[f];
-    if (from < fileEnd) {
-      const n = Math.min(to, fileEnd) - from;
-      const bytes = Buffer.from(ids.buffer, ids.byteOffset + 4 * at, 4 * n);
-      const { file, mapper } = streams.refs[f];
-      const fd = openSync(file, 'r');
-      try {
-        let done = 0;
-        while (done < bytes.length) {
-          const got = readSync(fd, bytes, done, bytes.length - done, 4 * (from - fileStart) + done);
-          if (got <= 0) throw new Error(`${file}: token stream ends early (${done} of ${bytes.length} bytes read)`);
-          done += got;
+  // wide chunks read straight into their ids and map them in place; narrow ones stage int32 ids first
+  const stage = ids instanceof Uint16Array ? takeBuffer(4 * STAGE_ENTRIES) : null;
+  try {
+    for (let f = 0; f < lengths.length && from < to; f++) {
+      const fileEnd = fileStart + lengths[f];
+      if (from < fileEnd) {
+        const n = Math.min(to, fileEnd) - from;
+        const { file, mapper } = streams.refs[f];
+        const toFinal = streams.finalIds[mapper];
+        const fd = openSync(file, 'r');
+        try {
+          for (let done = 0; done < n;) {
+            const step = stage === null ? n : Math.min(n - done, STAGE_ENTRIES);
+            const bytes = stage ?? Buffer.from(ids.buffer, ids.byteOffset + 4 * at, 4 * n);
+            readFully(fd, file, bytes, 4 * step, 4 * (from - fileStart + done));
+            if (stage === null) {
+              for (let i = at; i < at + n; i++) {
+                const id = ids[i];
+                if (id >= 0) ids[i] = toFinal[id];
+              }
+            } else {
+              const staged = new Int32Array(stage.buffer, stage.byteOffset, step);
+              for (let i = 0; i < step; i++) {
+                const id = staged[i];
+                const final = id >= 0 ? toFinal[id] : id;
+                ids[at + done + i] = final >= 0 ? final : final === DOCUMENT_END ? NARROW_DOCUMENT_END : NARROW_OUT;
+              }
+            }
+            done += step;
+          }
+        } finally {
+          closeSync(fd);
         }
-      } finally {
-        closeSync(fd);
+        at += n;
+        from += n;
       }
-      const toFinal = streams.finalIds[mapper];
-      for (let i = at; i < at + n; i++) {
-        const id = ids[i];
-        if (id >= 0) ids[i] = toFinal[id];
-      }
-      at += n;
-      from += n;
+      fileStart = fileEnd;
     }
-    fileStart = fileEnd;
+  } finally {
+    if (stage !== null) giveBuffer(stage);
   }
   // this slice's share of the positions' memory, touched here (fresh pages are slow to touch, and the index
   // pass writes them in no order, from every slice at once)
   const len = ids.length - 2;
   const space = source.positionSpace;
   space.fill(0, Math.floor((space.length * (slice.start - 1)) / len), Math.floor((space.length * (slice.end - 1)) / len));
-  const counts = new Int32Array(source.nRows);
+  const { nRows } = source;
+  const documentEnd = documentEndIn(ids);
+  const counts = new Int32Array(nRows);
   let ends = 0;
   const start = Math.max(slice.start, source.ownStart);
   const end = Math.min(slice.end, source.ownEnd);
   for (let p = start; p < end; p++) {
     const id = ids[p];
-    if (id >= 0) counts[id]++;
-    else if (id === DOCUMENT_END) ends++;
+    if (id >>> 0 < nRows) counts[id]++;
+    else if (id === documentEnd) ends++;
   }
   return { counts, ends };
+}
+
+/** Reads exactly `length` bytes at `position` of an open token stream. */
+function readFully(fd: number, file: string, bytes: Buffer, length: number, position: number): void {
+  let done = 0;
+  while (done < length) {
+    const got = readSync(fd, bytes, done, length - done, position + done);
+    if (got <= 0) throw new Error(`${file}: token stream ends early (${done} of ${length} bytes read)`);
+    done += got;
+  }
 }
 
 /** Where each slice writes its positions: per slice, the first index of each term's, and of its document ends. */
@@ -206,14 +256,15 @@ export function sliceOffsets(counted: SliceCounts[], memory: ChunkMemory): { row
 
 /** Writes a slice's own positions by term, from its offsets, and its document ends. */
 export function indexSlice(source: ChunkSource, slice: ChunkSlice, offsets: Int32Array, endOffset: number, positions: Int32Array, documentEnds: Int32Array): void {
-  const { ids } = source;
+  const { ids, nRows } = source;
+  const documentEnd = documentEndIn(ids);
   let e = endOffset;
   const start = Math.max(slice.start, source.ownStart);
   const end = Math.min(slice.end, source.ownEnd);
   for (let p = start; p < end; p++) {
     const id = ids[p];
-    if (id >= 0) positions[offsets[id]++] = p;
-    else if (id === DOCUMENT_END) documentEnds[e++] = p;
+    if (id >>> 0 < nRows) positions[offsets[id]++] = p;
+    else if (id === documentEnd) documentEnds[e++] = p;
   }
 }
 
@@ -227,9 +278,9 @@ export function chunkOf(source: ChunkSource, rowStart: Int32Array, positions: In
  * `firstDocument` is the number of documents that end before `from`.
  */
 export function loadChunk(
-  streams: CorpusStreams, lengths: number[], from: number, to: number, margin: number, nRows: number, firstDocument: number, slices = 1,
+  streams: CorpusStreams, lengths: number[], from: number, to: number, margin: number, nRows: number, firstDocument: number, slices = 1, wide = false,
 ): Chunk {
-  const memory = new ChunkMemory(to - from, margin, nRows);
+  const memory = new ChunkMemory(to - from, margin, nRows, wide);
   const source = chunkSource(streams, lengths, from, to, margin, memory);
   const plan = planSlices(source, slices);
   const counted = plan.map((s) => fillSlice(source, s));

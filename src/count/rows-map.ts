@@ -6,9 +6,8 @@
  * terms (ids are in descending count order), which is where most of a row's events fall.
  */
 import type { ContextsConfig } from '../config/types.js';
-import type { Chunk } from './chunks.js';
+import { documentEndIn, type Chunk } from './chunks.js';
 import { RunWriter } from './runs.js';
-import { DOCUMENT_END } from './token-stream.js';
 
 export interface RowsSetup {
   chunk: Chunk;
@@ -122,6 +121,9 @@ export class RowsMapper {
   private windowRows(task: RowsTask, out: RowOutput): number {
     const { chunk, contexts, weights, nCols } = this.setup;
     const { ids, positions, rowStart } = chunk;
+    // an entry is a term id exactly when (id >>> 0) < nRows, for int32 and uint16 ids alike (chunks.ts)
+    const nRows = rowStart.length - 1;
+    const documentEnd = documentEndIn(ids);
     const k = contexts.window;
     const left = contexts.direction !== 'right' ? k : 0;
     const right = contexts.direction !== 'left' ? k : 0;
@@ -134,8 +136,8 @@ export class RowsMapper {
         const p = positions[q];
         for (let d = 1; d <= left; d++) {
           const c = ids[p - d];
-          if (c < 0) {
-            if (c === DOCUMENT_END) break;
+          if (c >>> 0 >= nRows) {
+            if (c === documentEnd) break;
             continue;
           }
           if (sums[c] === 0) touched[n++] = c;
@@ -144,8 +146,8 @@ export class RowsMapper {
         }
         for (let d = 1; d <= right; d++) {
           const c = ids[p + d];
-          if (c < 0) {
-            if (c === DOCUMENT_END) break;
+          if (c >>> 0 >= nRows) {
+            if (c === documentEnd) break;
             continue;
           }
           if (sums[c] === 0) touched[n++] = c;
