@@ -7,15 +7,18 @@
  *  - document contexts: every in-vocabulary token adds 1 to cell (token, its document's corpus-wide index).
  * The streams are written with the vocabulary pass's TokenStreamWriter, in several files numbered by two
  * mappers with their own ids, and counted in one chunk and in chunks far smaller than a document, so windows
- * cross chunk edges, with chunk ids of 2 bytes (a small vocabulary) and of 4; every run must be sorted and
- * the runs together must hold exactly the definition's cells.
+ * cross chunk edges, with chunk ids of 2 bytes (a small vocabulary) and of 4, loaded in one slice or in
+ * several on worker threads (the compiled modules of dist/: `npm test` builds first); every run must be
+ * sorted and the runs together must hold exactly the definition's cells.
  */
 import { describe, it, expect, beforeAll, afterAll } from 'vitest';
 import { mkdtempSync, rmSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import type { ContextsConfig } from '../src/config/types.js';
-import { loadChunk, planChunks, streamLengths, type CorpusStreams } from '../src/count/chunks.js';
+import { ChunkMemory, planChunks, streamLengths, type CorpusStreams } from '../src/count/chunks.js';
+import { loadChunk } from '../src/count/passes.js';
+import { withThreadPool } from '../src/exec/pool.js';
 import { RowsMapper } from '../src/count/rows-map.js';
 import { RunReader } from '../src/count/runs.js';
 import { windowWeights } from '../src/count/cooccur.js';
@@ -121,7 +124,9 @@ function byDefinition(docs: Int32Array[], ctx: ContextsConfig): Map<string, numb
 }
 
 /** Counts the streams chunk by chunk with row tasks of `rowsPerTask` rows; the cells of all runs, summed. */
-async function counted(streams: CorpusStreams, ctx: ContextsConfig, chunkTokens: number, rowsPerTask: number, wide: boolean): Promise<{ cells: Map<string, number>; pairs: number; chunks: number }> {
+async function counted(
+  streams: CorpusStreams, ctx: ContextsConfig, chunkTokens: number, rowsPerTask: number, wide: boolean, slices: number,
+): Promise<{ cells: Map<string, number>; pairs: number; chunks: number }> {
   const lengths = streamLengths(streams);
   const chunks = planChunks(lengths.reduce((s, n) => s + n, 0), chunkTokens);
   const { weights } = windowWeights(ctx);
@@ -130,7 +135,9 @@ async function counted(streams: CorpusStreams, ctx: ContextsConfig, chunkTokens:
   let firstDocument = 0;
   let run = 0;
   for (const { from, to } of chunks) {
-    const chunk = loadChunk(streams, lengths, from, to, ctx.type === 'document' ? 0 : ctx.window, N_TERMS, firstDocument, 3, wide);
+    const margin = ctx.type === 'document' ? 0 : ctx.window;
+    // one slice per thread (one: in this thread)
+    const chunk = await loadChunk(streams, lengths, from, to, margin, new ChunkMemory(to - from, margin, N_TERMS, wide), firstDocument, slices);
     expect(chunk.ids instanceof Int32Array).toBe(wide);
     firstDocument += chunk.documentEnds.length;
     const mapper = new RowsMapper({ chunk, contexts: ctx, weights, nCols: ctx.type === 'document' ? 10_000 : N_TERMS });
@@ -175,8 +182,9 @@ describe('chunked row counting equals counting by definition', () => {
       const expected = sorted(byDefinition(docs, ctx));
       const events = [...byDefinition(docs, { ...ctx, weighting: 'uniform' }).values()].reduce((s, v) => s + v, 0);
       expect(expected.length).toBeGreaterThan(300);
-      for (const [chunkTokens, rowsPerTask, wide] of [[1e9, N_TERMS, false], [1e9, 7, true], [37, 11, false], [5, 60, true]] as const) {
-        const got = await counted(streams, ctx, chunkTokens, rowsPerTask, wide);
+      // one chunk loaded in 3 slices on threads; many chunks loaded in this thread
+      for (const [chunkTokens, rowsPerTask, wide, slices] of [[1e9, N_TERMS, false, 3], [1e9, 7, true, 3], [37, 11, false, 1], [5, 60, true, 1]] as const) {
+        const got = await withThreadPool(() => counted(streams, ctx, chunkTokens, rowsPerTask, wide, slices), slices);
         if (chunkTokens < 1e9) expect(got.chunks).toBeGreaterThan(20);
         expect(sorted(got.cells)).toEqual(expected);
         expect(got.pairs).toBe(events);
@@ -185,12 +193,12 @@ describe('chunked row counting equals counting by definition', () => {
   }
 
   for (const wide of [false, true]) {
-    it(`a chunk holds its own tokens once, indexed by term in corpus order (${wide ? '4' : '2'}-byte ids)`, () => {
+    it(`a chunk holds its own tokens once, indexed by term in corpus order (${wide ? '4' : '2'}-byte ids)`, async () => {
       const docs = zipfDocuments(3, 30, 20, 0.2);
       const streams = writeStreams(docs, 3, `index-${wide}`);
       const lengths = streamLengths(streams);
       const total = lengths.reduce((s, n) => s + n, 0);
-      const chunk = loadChunk(streams, lengths, 50, 170, 4, N_TERMS, 0, 2, wide);
+      const chunk = await withThreadPool(() => loadChunk(streams, lengths, 50, 170, 4, new ChunkMemory(120, 4, N_TERMS, wide), 0, 2), 2);
       const stream = docs.flatMap((d) => [...d, DOCUMENT_END]);
       expect(total).toBe(stream.length);
       // the tokens either side that windows reach, then sentinels; narrow ids code −1 and DOCUMENT_END as 0xFFFE, 0xFFFF

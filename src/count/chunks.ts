@@ -272,21 +272,3 @@ export function indexSlice(source: ChunkSource, slice: ChunkSlice, offsets: Int3
 export function chunkOf(source: ChunkSource, rowStart: Int32Array, positions: Int32Array, documentEnds: Int32Array, firstDocument: number): Chunk {
   return { ids: source.ids, ownStart: source.ownStart, ownEnd: source.ownEnd, positions, rowStart, documentEnds, firstDocument };
 }
-
-/**
- * Loads and indexes the chunk owning stream entries [from, to) in this thread, in `slices` slices.
- * `firstDocument` is the number of documents that end before `from`.
- */
-export function loadChunk(
-  streams: CorpusStreams, lengths: number[], from: number, to: number, margin: number, nRows: number, firstDocument: number, slices = 1, wide = false,
-): Chunk {
-  const memory = new ChunkMemory(to - from, margin, nRows, wide);
-  const source = chunkSource(streams, lengths, from, to, margin, memory);
-  const plan = planSlices(source, slices);
-  const counted = plan.map((s) => fillSlice(source, s));
-  const { rowStart, offsets, endOffsets, ends } = sliceOffsets(counted, memory);
-  const positions = memory.positionsOf(rowStart[nRows]);
-  const documentEnds = sharedInt32(ends).subarray(0, ends);
-  plan.forEach((s, i) => indexSlice(source, s, offsets[i], endOffsets[i], positions, documentEnds));
-  return chunkOf(source, rowStart, positions, documentEnds, firstDocument);
-}

@@ -165,8 +165,11 @@ export function chunkTokensFor(memoryMiB: number): number {
   return Math.min(MAX_CHUNK_TOKENS, Math.max(1 << 16, Math.floor((memoryMiB * 1024 * 1024 * CHUNK_SHARE) / 8)));
 }
 
-/** Loads and indexes a chunk in one slice per thread (chunks.ts, chunk-map.ts). */
-async function loadChunkOnThreads(
+/**
+ * Loads and indexes the chunk owning stream entries [from, to) in one slice per worker (chunks.ts,
+ * chunk-map.ts); `firstDocument` is the number of documents that end before `from`.
+ */
+export async function loadChunk(
   streams: CorpusStreams, lengths: number[], from: number, to: number, margin: number, memory: ChunkMemory, firstDocument: number, workers: number,
 ): Promise<Chunk> {
   const source = chunkSource(streams, lengths, from, to, margin, memory);
@@ -246,7 +249,7 @@ export async function countPairs(
   let done = 0;
   const memory = new ChunkMemory(chunks.reduce((m, k) => Math.max(m, k.to - k.from), 0), margin, nRows);
   for (const [c, { from, to }] of chunks.entries()) {
-    const chunk = await loadChunkOnThreads(streams, lengths, from, to, margin, memory, firstDocument, exec.workers);
+    const chunk = await loadChunk(streams, lengths, from, to, margin, memory, firstDocument, exec.workers);
     firstDocument += chunk.documentEnds.length;
     // streams wholly behind the next chunk's reach are no longer needed
     const keepFrom = c + 1 < chunks.length ? chunks[c + 1].from - margin : total;
