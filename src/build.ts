@@ -255,7 +255,7 @@ async function buildAndPublish(
       const weigh = { weighting: cfg.weighting, normalize: cfg.normalize, valueType: cfg.output.valueType, dir: await area.temporaryFolder(`weighted-${weightKey}`) };
       const r = await countPairs(cfg, exec, streams, vocab.terms.length, nCols, ranges, dir, chunkTokens, progress, weigh);
       if (r.weighted !== null) prepared = { dir: weigh.dir, entries: r.weighted };
-      await fsp.rm(path.join(dir, 'spill'), { recursive: true, force: true });
+      await fsp.rm(path.join(dir, 'runs'), { recursive: true, force: true });
       // the weight stage needs the marginals; keeping them here lets it run (or rerun) without recounting
       await writeMarginals(path.join(dir, MARGINALS_FILE), r.marginals);
       return { pairEvents: r.pairs, entries: r.entries, chunks: r.chunks };

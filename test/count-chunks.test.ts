@@ -18,7 +18,7 @@ const loaded = (raw: Record<string, unknown>) => loadedConfig(work, raw);
 const checksums = fileChecksums;
 
 beforeAll(() => {
-  work = mkdtempSync(path.join(os.tmpdir(), 'kindred-spill-'));
+  work = mkdtempSync(path.join(os.tmpdir(), 'kindred-chunks-'));
   writeFileSync(path.join(work, 'brown.txt'), brownFiles('abc').map(brownText).join('\n') + '\n');
 });
 

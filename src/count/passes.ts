@@ -230,8 +230,8 @@ export async function countPairs(
   cfg: KindredConfig, exec: CountExec, streams: CorpusStreams, nRows: number, nCols: number, ranges: RowRange[],
   workDir: string, chunkTokens: number, progress: Progress, weigh: WeighTarget | null = null,
 ): Promise<{ marginals: Marginals; entries: number[]; weighted: number[] | null; pairs: number; chunks: number; threads: number }> {
-  const spillDir = path.join(workDir, 'spill');
-  await fsp.mkdir(spillDir, { recursive: true });
+  const runDir = path.join(workDir, 'runs');
+  await fsp.mkdir(runDir, { recursive: true });
   const ctx = cfg.contexts;
   const { weights, scale } = windowWeights(ctx);
   const margin = ctx.type === 'document' ? 0 : ctx.window;
@@ -266,7 +266,7 @@ export async function countPairs(
     const chunkCost = Math.max(1, chunk.rowStart[nRows]);
     const tasks: RowsTask[] = order.map((i) => ({
       firstRow: planned[i].firstRow, endRow: planned[i].endRow,
-      file: path.join(spillDir, `c${String(c).padStart(5, '0')}-t${String(i).padStart(5, '0')}.bin`),
+      file: path.join(runDir, `c${String(c).padStart(5, '0')}-t${String(i).padStart(5, '0')}.bin`),
       progress: ((to - from) * planned[i].cost) / chunkCost,
     }));
     const run = await runMap('rows', () => ({ chunk, contexts: ctx, weights, nCols }), tasks, exec.workers, (n) => progress.update((done += n)));

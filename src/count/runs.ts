@@ -2,7 +2,7 @@ import { openSync, readSync, closeSync } from 'node:fs';
 import { wrapWriteError, writeBytesOrThrow } from '../store/atomic.js';
 import { giveBuffer, takeBuffer } from '../store/buffer-pool.js';
 
-/** A spilled run: sorted (row u32, col u32, value f64) records, 16 bytes each, little-endian. */
+/** A run (the rows of one count task, or a part of them): sorted (row u32, col u32, value f64) records, 16 bytes each, little-endian. */
 const RECORD = 16;
 const BUFFER_RECORDS = 1 << 16;
 
@@ -245,7 +245,7 @@ export class RowAccumulator {
   }
 }
 
-/** A sorted source (a spilled run) as a row-wise source. */
+/** A sorted source (a run) as a row-wise source. */
 export class SortedRowSource implements RowWiseSource {
   constructor(private readonly source: SortedSource & { close?(): void }) {}
 
