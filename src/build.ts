@@ -10,12 +10,13 @@ import { resolveWorkers, withThreadPool } from './exec/pool.js';
 import { partitionRows } from './count/partition.js';
 import { weightShards } from './weight/stage.js';
 import { partFileName } from './store/shards.js';
+import type { FileChecksum } from './store/arrow-sink.js';
 import { readVocabulary, writeVocabulary, type Vocabulary } from './store/vocab-file.js';
 import { describeWriteFailure, wrapWriteError } from './store/atomic.js';
 import { sha256File, sha256Text } from './store/checksum.js';
 import { acquireBuildLock } from './store/lock.js';
 import { MARGINALS_FILE, readMarginals, writeMarginals } from './store/marginals-file.js';
-import { WorkArea, type StageOutput } from './store/work-area.js';
+import { WorkArea, type KnownChecksums, type StageOutput } from './store/work-area.js';
 import { FORMAT_VERSION, readManifest, type FileRecord, type InputFingerprint, type Manifest, type PartRecord, type StageRecord } from './store/manifest.js';
 import { silentProgress, type Progress } from './progress.js';
 import { canonicalJson } from './config/index.js';
@@ -70,8 +71,11 @@ interface StageSpec<S> {
   key: string;
   /** Top-level files or folders of the output that go into the published build; the rest stay internal. */
   publish: string[];
-  /** Writes the output into `dir` (fresh and empty) and returns a JSON summary, kept in stage.json. */
-  run(dir: string): Promise<S>;
+  /**
+   * Writes the output into `dir` (fresh and empty) and returns a JSON summary, kept in stage.json; files whose
+   * checksums it knows from writing them go into `known`, so sealing the stage need not read them back.
+   */
+  run(dir: string, known: KnownChecksums): Promise<S>;
   /** The stage's counts for the manifest. */
   counts(summary: S): Record<string, number>;
 }
@@ -113,8 +117,9 @@ class StageRunner {
         await this.area.discardStage(spec.name, spec.key);
       }
       const tmp = await this.area.temporaryFolder(`${spec.name}-${spec.key}`);
-      const summary = await spec.run(tmp);
-      out = await this.area.commitStage(spec.name, spec.key, tmp, spec.publish, summary, secondsSince(t0));
+      const known: KnownChecksums = new Map();
+      const summary = await spec.run(tmp, known);
+      out = await this.area.commitStage(spec.name, spec.key, tmp, spec.publish, summary, secondsSince(t0), known);
     }
     this.records.push({ name: spec.name, key: spec.key, seconds: secondsSince(t0), reused: out.reused, counts: spec.counts(out.summary) });
     this.outputs.push(out as StageOutput<unknown>);
@@ -240,12 +245,12 @@ async function buildAndPublish(
   const ranges = partitionRows(vocab, cfg.contexts, nCols, cfg.output.parts);
 
   // weighted shards the count stage wrote along with the counts (in the work area's tmp/), for the weight stage
-  let prepared: { dir: string; entries: number[] } | null = null;
+  let prepared: { dir: string; entries: number[]; checksums: FileChecksum[] } | null = null;
   const countStage = await stages.run<CountSummary>({
     name: 'count',
     key: countKey,
     publish: ['counts'],
-    run: async (dir) => {
+    run: async (dir, known) => {
       await fsp.mkdir(path.join(dir, 'counts'));
       // the vocabulary pass of this build left token streams; a reused vocabulary needs them made again
       const streams = fresh !== null ? (fresh as TermsResult).streams
@@ -254,7 +259,8 @@ async function buildAndPublish(
       // the weight stage runs after a count stage that ran: counting may write its shards on the way
       const weigh = { weighting: cfg.weighting, normalize: cfg.normalize, valueType: cfg.output.valueType, dir: await area.temporaryFolder(`weighted-${weightKey}`) };
       const r = await countPairs(cfg, exec, streams, vocab.terms.length, nCols, ranges, dir, chunkTokens, progress, weigh);
-      if (r.weighted !== null) prepared = { dir: weigh.dir, entries: r.weighted };
+      r.checksums?.counts.forEach((c, i) => known.set(path.join(dir, 'counts', partFileName(i)), c));
+      if (r.weighted !== null && r.checksums?.weighted) prepared = { dir: weigh.dir, entries: r.weighted, checksums: r.checksums.weighted };
       await fsp.rm(path.join(dir, 'runs'), { recursive: true, force: true });
       // the weight stage needs the marginals; keeping them here lets it run (or rerun) without recounting
       await writeMarginals(path.join(dir, MARGINALS_FILE), r.marginals);
@@ -268,11 +274,12 @@ async function buildAndPublish(
     name: 'weight',
     key: weightKey,
     publish: ['weighted'],
-    run: async (dir) => {
+    run: async (dir, known) => {
       if (prepared !== null) {
-        const { dir: from, entries } = prepared as { dir: string; entries: number[] };
+        const { dir: from, entries, checksums } = prepared as { dir: string; entries: number[]; checksums: FileChecksum[] };
         progress.start('weight', 0, 'parts');
         await fsp.rename(from, path.join(dir, 'weighted'));
+        checksums.forEach((c, i) => known.set(path.join(dir, 'weighted', partFileName(i)), c));
         progress.end(`${cfg.weighting.scheme}, ${cfg.normalize} rows, ${sum(entries)} nonzero weights (written with the counts)`);
         return { entries };
       }

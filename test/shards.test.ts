@@ -1,6 +1,7 @@
 /** Shard files round-trip through several record batches (checked by reading back, with apache-arrow's reader). */
 import { describe, it, expect } from 'vitest';
-import { mkdtempSync, statSync } from 'node:fs';
+import { createHash } from 'node:crypto';
+import { mkdtempSync, readFileSync, statSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import { ShardWriter, readShard, readShardBlocks, readArrowTable } from '../src/store/shards.js';
@@ -21,6 +22,8 @@ describe('ShardWriter', () => {
       expect(block.indptr[nRows]).toBe(nRows * perRow);
       expect(block.cols[perRow * 7 + 5]).toBe(15);
       expect(block.values[perRow * 7 + 5]).toBe(7 + 5 / 4);
+      // the checksum taken while writing is the file's own: size from stat, SHA-256 by node:crypto over its bytes
+      expect(w.checksum).toEqual({ bytes: statSync(file).size, sha256: createHash('sha256').update(readFileSync(file)).digest('hex') });
     });
   }
 

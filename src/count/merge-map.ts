@@ -6,6 +6,7 @@
  */
 import type { Normalization, WeightingConfig } from '../config/types.js';
 import { ShardWriter, type ShardValueType } from '../store/shards.js';
+import type { FileChecksum } from '../store/arrow-sink.js';
 import { weightAndNormalize } from '../weight/index.js';
 import type { Marginals } from '../weight/types.js';
 import { RunReader, SortedRowSource, mergeRowWise, readRunBatches } from './runs.js';
@@ -50,6 +51,9 @@ export interface MergeResult {
   total: number;
   /** Entries of the weighted shard, when the setup weighs. */
   weightedEntries: number;
+  /** Size and SHA-256 of the counts shard and of the weighted shard (null when the setup does not weigh). */
+  countsChecksum: FileChecksum;
+  weightedChecksum: FileChecksum | null;
 }
 
 /**
@@ -75,6 +79,10 @@ class WeightedRows {
 
   get entries(): number {
     return this.writer.entries;
+  }
+
+  get checksum(): FileChecksum | null {
+    return this.writer.checksum;
   }
 
   /** Adds count (row r, col c); rows ascending, columns ascending within a row. */
@@ -172,7 +180,10 @@ export class MergeMapper {
     await writer.close();
     await weighted?.close();
     onProgress(1);
-    return { entries: writer.entries, rowSums, rowNnz, colSums, total, weightedEntries: weighted?.entries ?? 0 };
+    return {
+      entries: writer.entries, rowSums, rowNnz, colSums, total,
+      weightedEntries: weighted?.entries ?? 0, countsChecksum: writer.checksum!, weightedChecksum: weighted?.checksum ?? null,
+    };
   }
 
   finish(): Record<string, never> {

@@ -7,6 +7,7 @@ import { runMap, type MapRun } from '../exec/pool.js';
 import type { Progress } from '../progress.js';
 import type { Marginals } from '../weight/types.js';
 import { ShardWriter, partFileName, type ShardValueType } from '../store/shards.js';
+import type { FileChecksum } from '../store/arrow-sink.js';
 import type { Vocabulary } from '../store/vocab-file.js';
 import { exactWeights, windowWeights } from './cooccur.js';
 import { RunReader, mergeSources, MAX_ROW_WISE_COLUMNS } from './runs.js';
@@ -229,7 +230,11 @@ export interface WeighTarget {
 export async function countPairs(
   cfg: KindredConfig, exec: CountExec, streams: CorpusStreams, nRows: number, nCols: number, ranges: RowRange[],
   workDir: string, chunkTokens: number, progress: Progress, weigh: WeighTarget | null = null,
-): Promise<{ marginals: Marginals; entries: number[]; weighted: number[] | null; pairs: number; chunks: number; threads: number }> {
+): Promise<{
+  marginals: Marginals; entries: number[]; weighted: number[] | null; pairs: number; chunks: number; threads: number;
+  /** Size and SHA-256 of each part's counts shard and (when weighted) weighted shard, as written; null: not known. */
+  checksums: { counts: FileChecksum[]; weighted: FileChecksum[] | null } | null;
+}> {
   const runDir = path.join(workDir, 'runs');
   await fsp.mkdir(runDir, { recursive: true });
   const ctx = cfg.contexts;
@@ -295,6 +300,7 @@ export async function countPairs(
   const bufferRecords = Math.min(MAX_RUN_BUFFER_RECORDS, Math.max(MIN_RUN_BUFFER_RECORDS, Math.floor(MERGE_BUFFER_BYTES / 16 / maxRuns)));
   let entries: number[];
   let weighted: number[] | null = null;
+  let checksums: { counts: FileChecksum[]; weighted: FileChecksum[] | null } | null = null;
   if (nCols <= MAX_ROW_WISE_COLUMNS) {
     // with integer weights the sums are exact, so the count tasks' sums are the marginals the merge sums
     const fuse = weigh !== null && chunks.length === 1 && exactWeights(ctx) ? weigh : null;
@@ -315,10 +321,12 @@ export async function countPairs(
       sumAll += m.total;
     }
     entries = merged.results.map((m) => m.entries);
+    checksums = { counts: merged.results.map((m) => m.countsChecksum), weighted: null };
     if (earlyMarginals !== null) {
       const final = scaledMarginals(rowSums.slice(), colSums.slice(), rowNnz, scale);
       if (!sameMarginals(final, earlyMarginals)) throw new Error('the count tasks\' sums differ from the merged counts\' (a bug)');
       weighted = merged.results.map((m) => m.weightedEntries);
+      checksums.weighted = merged.results.map((m) => m.weightedChecksum!);
     }
   } else {
     // too wide for a dense scratch row: a heap over each part's runs
@@ -339,7 +347,7 @@ export async function countPairs(
   for (const runs of partRuns) for (const f of runs) rmSync(f, { force: true });
   const marginals = scaledMarginals(rowSums, colSums, rowNnz, scale, sumAll);
   progress.end(`${pairs} pair events, ${entries.reduce((s, n) => s + n, 0)} nonzero counts, ${chunks.length} chunk${chunks.length > 1 ? 's' : ''} (${threads} thread${threads > 1 ? 's' : ''})`);
-  return { marginals, entries, weighted, pairs, chunks: chunks.length, threads };
+  return { marginals, entries, weighted, pairs, chunks: chunks.length, threads, checksums };
 }
 
 /** Marginals from scaled row and column sums (divided in place); total: the scaled sum of all cells, else the row sums' sum. */

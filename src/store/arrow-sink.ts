@@ -2,6 +2,7 @@
  * Streams record batches of one schema into an Arrow IPC file, so tables larger than memory (neighbour lists of
  * every term, vectors of 100,000 terms) are written batch by batch.
  */
+import { createHash } from 'node:crypto';
 import { closeSync, fsyncSync, openSync } from 'node:fs';
 import type { Data, Schema, Utf8 as Utf8Type } from 'apache-arrow';
 import { AsyncByteQueue, makeData, RecordBatch, RecordBatchFileWriter, Struct, Utf8 } from './arrow.js';
@@ -34,20 +35,35 @@ export function utf8Data(strings: readonly string[]): Data<Utf8Type> {
  * one batch whatever the file's size.
  */
 class FileByteSink extends AsyncByteQueue {
+  /** SHA-256 and size of everything written, so the file need not be read back to be checksummed. */
+  readonly hash = createHash('sha256');
+  bytes = 0;
+
   constructor(private readonly fd: number, private readonly file: string) {
     super();
   }
 
   override write(value: Uint8Array): void {
     writeBytesOrThrow(this.fd, value, value.byteLength, this.file);
+    this.hash.update(value);
+    this.bytes += value.byteLength;
   }
+}
+
+/** A written file's size and SHA-256 (hex). */
+export interface FileChecksum {
+  bytes: number;
+  sha256: string;
 }
 
 export class ArrowFileSink {
   private readonly fd: number;
   private readonly writer = new RecordBatchFileWriter();
+  private readonly sink: FileByteSink;
   private wroteAny = false;
   rows = 0;
+  /** The file's size and SHA-256, once closed. */
+  checksum: FileChecksum | null = null;
 
   constructor(readonly file: string, private readonly schema: Schema) {
     try {
@@ -55,7 +71,8 @@ export class ArrowFileSink {
     } catch (e) {
       throw wrapWriteError(e, file);
     }
-    this.writer.reset(new FileByteSink(this.fd, file));
+    this.sink = new FileByteSink(this.fd, file);
+    this.writer.reset(this.sink);
   }
 
   /** Writes one batch; `children` follow the schema's fields, each of `length` rows. */
@@ -73,6 +90,7 @@ export class ArrowFileSink {
       if (!this.wroteAny) this.write(emptyChildren(), 0);
       this.writer.finish();
       fsyncSync(this.fd);
+      this.checksum = { bytes: this.sink.bytes, sha256: this.sink.hash.digest('hex') };
     } catch (e) {
       throw wrapWriteError(e, this.file);
     } finally {

@@ -6,7 +6,7 @@ import type { Table, AsyncRecordBatchFileReader, AsyncRecordBatchStreamReader } 
 import { KindredError } from '../errors.js';
 import type { RowBlock } from '../weight/types.js';
 import { giveBuffer, takeBuffer } from './buffer-pool.js';
-import { ArrowFileSink } from './arrow-sink.js';
+import { ArrowFileSink, type FileChecksum } from './arrow-sink.js';
 
 /** The file name of shard `index`: part-00000.arrow, part-00001.arrow … */
 export function partFileName(index: number): string {
@@ -98,6 +98,11 @@ export class ShardWriter {
       makeData({ type: new Uint32(), length: n, nullCount: 0, data: this.cols.subarray(0, n) }),
       makeData({ type: this.valueType === 'float32' ? new Float32() : new Float64(), length: n, nullCount: 0, data: values }),
     ];
+  }
+
+  /** The file's size and SHA-256, once closed. */
+  get checksum(): FileChecksum | null {
+    return this.sink.checksum;
   }
 
   /** Writes the footer, syncs and closes the file. */

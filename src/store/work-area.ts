@@ -16,6 +16,7 @@ import path from 'node:path';
 import { randomBytes } from 'node:crypto';
 import { KindredError } from '../errors.js';
 import { sha256File } from './checksum.js';
+import type { FileChecksum } from './arrow-sink.js';
 import { syncDirectory, syncFile, wrapWriteError, writeFileAtomic } from './atomic.js';
 import { MANIFEST_FILE, type FileRecord } from './manifest.js';
 
@@ -68,13 +69,20 @@ export async function listFiles(root: string, dir = root): Promise<string[]> {
   return out.sort();
 }
 
-async function describeFiles(dir: string, rels: string[]): Promise<FileRecord[]> {
+/**
+ * Checksums of files a stage wrote, by absolute path, taken from the bytes as they were written (so they need
+ * not be read back); a file whose size differs from its entry is checksummed from the disk.
+ */
+export type KnownChecksums = Map<string, FileChecksum>;
+
+async function describeFiles(dir: string, rels: string[], known: KnownChecksums): Promise<FileRecord[]> {
   const out: FileRecord[] = [];
   for (const rel of rels) {
     const p = path.join(dir, rel);
     await syncFile(p); // whichever writer made it, it reaches the disk before the stage is sealed
     const st = await fsp.stat(p);
-    out.push({ path: rel, bytes: st.size, sha256: await sha256File(p) });
+    const k = known.get(p);
+    out.push({ path: rel, bytes: st.size, sha256: k !== undefined && k.bytes === st.size ? k.sha256 : await sha256File(p) });
   }
   return out;
 }
@@ -227,11 +235,13 @@ export class WorkArea {
    * Seals a stage output written into `tmp`: records its files (those under `publish` go into builds, the
    * rest stay internal) with sizes and SHA-256 in stage.json, then renames the folder into stages/.
    */
-  async commitStage<S>(name: string, key: string, tmp: string, publish: string[], summary: S, seconds: number): Promise<StageOutput<S>> {
+  async commitStage<S>(
+    name: string, key: string, tmp: string, publish: string[], summary: S, seconds: number, known: KnownChecksums = new Map(),
+  ): Promise<StageOutput<S>> {
     const all = await listFiles(tmp);
     const isPublished = (rel: string): boolean => publish.some((p) => rel === p || rel.startsWith(`${p}/`));
-    const published = await describeFiles(tmp, all.filter(isPublished));
-    const internal = await describeFiles(tmp, all.filter((f) => !isPublished(f)));
+    const published = await describeFiles(tmp, all.filter(isPublished), known);
+    const internal = await describeFiles(tmp, all.filter((f) => !isPublished(f)), known);
     for (const p of publish) {
       if (!all.some((rel) => rel === p || rel.startsWith(`${p}/`))) {
         throw new Error(`stage ${name} declared "${p}" as published output but wrote no such file`);
