@@ -287,8 +287,9 @@ async function buildAndPublish(
       // weightShards reads <dir>/counts: lend it the count stage's folder for the duration
       const lent = path.join(dir, 'counts');
       await fsp.symlink(path.join(countStage.dir, 'counts'), lent);
-      const entries = await weightShards(cfg, ranges, marginals, dir, progress, exec.workers);
+      const { entries, checksums } = await weightShards(cfg, ranges, marginals, dir, progress, exec.workers);
       await fsp.unlink(lent);
+      checksums.forEach((c, i) => known.set(path.join(dir, 'weighted', partFileName(i)), c));
       return { entries };
     },
     counts: (s) => ({ entries: sum(s.entries) }),

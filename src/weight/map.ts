@@ -6,6 +6,7 @@
 import type { Normalization, WeightingConfig } from '../config/types.js';
 import type { ShardValueType } from '../store/shards.js';
 import { ShardWriter, readShardBlocks } from '../store/shards.js';
+import type { FileChecksum } from '../store/arrow-sink.js';
 import { weightBlock, normalizeRows } from './index.js';
 import type { Marginals } from './types.js';
 
@@ -25,6 +26,8 @@ export interface WeightTask {
 
 export interface WeightResult {
   entries: number;
+  /** Size and SHA-256 of the weighted shard, taken as it was written. */
+  checksum: FileChecksum;
 }
 
 export class WeightMapper {
@@ -38,7 +41,7 @@ export class WeightMapper {
     }
     await writer.close();
     onProgress(1);
-    return { entries: writer.entries };
+    return { entries: writer.entries, checksum: writer.checksum! };
   }
 
   finish(): Record<string, never> {

@@ -5,6 +5,7 @@ import type { RowRange } from '../count/partition.js';
 import { partFileName } from '../store/shards.js';
 import { runMap } from '../exec/pool.js';
 import type { Marginals } from './types.js';
+import type { FileChecksum } from '../store/arrow-sink.js';
 
 /**
  * Reweights and normalizes each count shard into the matching weighted shard, one part per task on `workers`
@@ -13,7 +14,7 @@ import type { Marginals } from './types.js';
  */
 export async function weightShards(
   cfg: KindredConfig, ranges: RowRange[], marginals: Marginals, workDir: string, progress: Progress, workers = 1,
-): Promise<number[]> {
+): Promise<{ entries: number[]; checksums: FileChecksum[] }> {
   progress.start('weight', ranges.length, 'parts');
   let done = 0;
   const tasks = ranges.map((r, i) => ({
@@ -26,5 +27,5 @@ export async function weightShards(
     tasks, workers, (n) => progress.update((done += n)));
   const entries = run.results.map((r) => r.entries);
   progress.end(`${cfg.weighting.scheme}, ${cfg.normalize} rows, ${entries.reduce((a, b) => a + b, 0)} nonzero weights (${run.threads} thread${run.threads > 1 ? 's' : ''})`);
-  return entries;
+  return { entries, checksums: run.results.map((r) => r.checksum) };
 }
