@@ -154,7 +154,7 @@ export function planSlices(source: ChunkSource, n: number): ChunkSlice[] {
   return Array.from({ length: n }, (_, i) => ({ start: 1 + Math.floor((len * i) / n), end: 1 + Math.floor((len * (i + 1)) / n) }));
 }
 
-/** Stream entries read at a time into the narrow chunks' int32 staging buffer. */
+/** Stream entries read at a time into the int32 staging buffer. */
 const STAGE_ENTRIES = 1 << 16;
 
 /** Reads a slice's stream entries into the chunk as final ids; counts its own tokens by term and its document ends. */
@@ -164,8 +164,11 @@ export function fillSlice(source: ChunkSource, slice: ChunkSlice): SliceCounts {
   const to = source.lo + slice.end - 1;
   let at = slice.start;
   let fileStart = 0;
-  // wide chunks read straight into their ids and map them in place; narrow ones stage int32 ids first
-  const stage = ids instanceof Uint16Array ? takeBuffer(4 * STAGE_ENTRIES) : null;
+  // the streams' int32 ids are read through one staging buffer and written to the chunk as final ids (coded
+  // for narrow chunks)
+  const narrow = ids instanceof Uint16Array;
+  const stage = takeBuffer(4 * STAGE_ENTRIES);
+  const staged = new Int32Array(stage.buffer, stage.byteOffset, STAGE_ENTRIES);
   try {
     for (let f = 0; f < lengths.length && from < to; f++) {
       const fileEnd = fileStart + lengths[f];
@@ -176,21 +179,12 @@ export function fillSlice(source: ChunkSource, slice: ChunkSlice): SliceCounts {
         const fd = openSync(file, 'r');
         try {
           for (let done = 0; done < n;) {
-            const step = stage === null ? n : Math.min(n - done, STAGE_ENTRIES);
-            const bytes = stage ?? Buffer.from(ids.buffer, ids.byteOffset + 4 * at, 4 * n);
-            readFully(fd, file, bytes, 4 * step, 4 * (from - fileStart + done));
-            if (stage === null) {
-              for (let i = at; i < at + n; i++) {
-                const id = ids[i];
-                if (id >= 0) ids[i] = toFinal[id];
-              }
-            } else {
-              const staged = new Int32Array(stage.buffer, stage.byteOffset, step);
-              for (let i = 0; i < step; i++) {
-                const id = staged[i];
-                const final = id >= 0 ? toFinal[id] : id;
-                ids[at + done + i] = final >= 0 ? final : final === DOCUMENT_END ? NARROW_DOCUMENT_END : NARROW_OUT;
-              }
+            const step = Math.min(n - done, STAGE_ENTRIES);
+            readFully(fd, file, stage, 4 * step, 4 * (from - fileStart + done));
+            for (let i = 0; i < step; i++) {
+              const id = staged[i];
+              const final = id >= 0 ? toFinal[id] : id;
+              ids[at + done + i] = final >= 0 || !narrow ? final : final === DOCUMENT_END ? NARROW_DOCUMENT_END : NARROW_OUT;
             }
             done += step;
           }
@@ -203,7 +197,7 @@ export function fillSlice(source: ChunkSource, slice: ChunkSlice): SliceCounts {
       fileStart = fileEnd;
     }
   } finally {
-    if (stage !== null) giveBuffer(stage);
+    giveBuffer(stage);
   }
   // this slice's share of the positions' memory, touched here (fresh pages are slow to touch, and the index
   // pass writes them in no order, from every slice at once)
