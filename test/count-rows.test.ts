@@ -18,7 +18,8 @@ import path from 'node:path';
 import type { ContextsConfig } from '../src/config/types.js';
 import { ChunkMemory, planChunks, streamLengths, type CorpusStreams } from '../src/count/chunks.js';
 import { loadChunk } from '../src/count/passes.js';
-import { withThreadPool } from '../src/exec/pool.js';
+import { gatherTasks, gatherWidth, planGroups } from '../src/count/gather.js';
+import { runMap, withThreadPool } from '../src/exec/pool.js';
 import { RowsMapper } from '../src/count/rows-map.js';
 import { RunReader } from '../src/count/runs.js';
 import { windowWeights } from '../src/count/cooccur.js';
@@ -125,8 +126,8 @@ function byDefinition(docs: Int32Array[], ctx: ContextsConfig): Map<string, numb
 
 /** Counts the streams chunk by chunk with row tasks of `rowsPerTask` rows; the cells of all runs, summed. */
 async function counted(
-  streams: CorpusStreams, ctx: ContextsConfig, chunkTokens: number, rowsPerTask: number, wide: boolean, slices: number,
-): Promise<{ cells: Map<string, number>; pairs: number; chunks: number }> {
+  streams: CorpusStreams, ctx: ContextsConfig, chunkTokens: number, rowsPerTask: number, wide: boolean, slices: number, gatherBytes: number,
+): Promise<{ cells: Map<string, number>; pairs: number; chunks: number; lone: number }> {
   const lengths = streamLengths(streams);
   const chunks = planChunks(lengths.reduce((s, n) => s + n, 0), chunkTokens);
   const { weights } = windowWeights(ctx);
@@ -134,33 +135,43 @@ async function counted(
   let pairs = 0;
   let firstDocument = 0;
   let run = 0;
+  let lone = 0;
   for (const { from, to } of chunks) {
     const margin = ctx.type === 'document' ? 0 : ctx.window;
     // one slice per thread (one: in this thread)
-    const chunk = await loadChunk(streams, lengths, from, to, margin, new ChunkMemory(to - from, margin, N_TERMS, wide), firstDocument, slices);
+    const memory = new ChunkMemory(to - from, margin, N_TERMS, wide, gatherBytes);
+    const { chunk, slices: loadedIn, counted: sliceCounts } = await loadChunk(streams, lengths, from, to, margin, memory, firstDocument, slices);
     expect(chunk.ids instanceof Int32Array).toBe(wide);
-    firstDocument += chunk.documentEnds.length;
-    const mapper = new RowsMapper({ chunk, contexts: ctx, weights, nCols: ctx.type === 'document' ? 10_000 : N_TERMS });
-    for (let first = 0; first < N_TERMS; first += rowsPerTask) {
-      const file = path.join(work, `run-${run++}.bin`);
-      const result = await mapper.run({ firstRow: first, endRow: Math.min(N_TERMS, first + rowsPerTask), file, progress: 0 }, () => {});
-      pairs += result.pairs;
-      const reader = new RunReader(file);
-      let records = 0;
-      let last = -1;
-      for (; !reader.done; reader.advance()) {
-        records++;
-        const key = reader.row * 1e6 + reader.col;
-        expect(key).toBeGreaterThan(last); // sorted, no cell twice in a run
-        last = key;
-        expect(reader.row).toBeGreaterThanOrEqual(first);
-        expect(reader.row).toBeLessThan(first + rowsPerTask);
-        cells.set(`${reader.row},${reader.col}`, (cells.get(`${reader.row},${reader.col}`) ?? 0) + reader.value);
+    firstDocument += chunk.documentEnds;
+    const gathered = memory.gatheredOf(ctx.type === 'document');
+    const { width } = gatherWidth(ctx);
+    const capacity = Math.floor(gathered.byteLength / (width * gathered.BYTES_PER_ELEMENT));
+    for (const group of planGroups(chunk.rowStart, N_TERMS, capacity)) {
+      if (group.fits) await runMap('gather', () => ({ chunk, contexts: ctx, buffer: gathered }), gatherTasks(chunk, loadedIn, sliceCounts, group, width), slices);
+      else lone++;
+      const mapper = new RowsMapper({ chunk, contexts: ctx, weights, nCols: ctx.type === 'document' ? 10_000 : N_TERMS, gathered, group });
+      for (let first = group.first; first < group.end; first += rowsPerTask) {
+        const endRow = Math.min(group.end, first + rowsPerTask);
+        const file = path.join(work, `run-${run++}.bin`);
+        const result = await mapper.run({ firstRow: first, endRow, file, progress: 0 }, () => {});
+        pairs += result.pairs;
+        const reader = new RunReader(file);
+        let records = 0;
+        let last = -1;
+        for (; !reader.done; reader.advance()) {
+          records++;
+          const key = reader.row * 1e6 + reader.col;
+          expect(key).toBeGreaterThan(last); // sorted, no cell twice in a run
+          last = key;
+          expect(reader.row).toBeGreaterThanOrEqual(first);
+          expect(reader.row).toBeLessThan(endRow);
+          cells.set(`${reader.row},${reader.col}`, (cells.get(`${reader.row},${reader.col}`) ?? 0) + reader.value);
+        }
+        expect(records).toBe(result.entries);
       }
-      expect(records).toBe(result.entries);
     }
   }
-  return { cells, pairs, chunks: chunks.length };
+  return { cells, pairs, chunks: chunks.length, lone };
 }
 
 function sorted(m: Map<string, number>): [string, number][] {
@@ -182,10 +193,13 @@ describe('chunked row counting equals counting by definition', () => {
       const expected = sorted(byDefinition(docs, ctx));
       const events = [...byDefinition(docs, { ...ctx, weighting: 'uniform' }).values()].reduce((s, v) => s + v, 0);
       expect(expected.length).toBeGreaterThan(300);
-      // one chunk loaded in 3 slices on threads; many chunks loaded in this thread
-      for (const [chunkTokens, rowsPerTask, wide, slices] of [[1e9, N_TERMS, false, 3], [1e9, 7, true, 3], [37, 11, false, 1], [5, 60, true, 1]] as const) {
-        const got = await withThreadPool(() => counted(streams, ctx, chunkTokens, rowsPerTask, wide, slices), slices);
+      // one chunk loaded and gathered in 3 slices on threads; many chunks in this thread; a gathering buffer
+      // that holds every row, a few rows, or a few occurrences (the frequent rows gathered alone, in pieces)
+      const cases = [[1e9, N_TERMS, false, 3, 1 << 20], [1e9, 7, true, 3, 96], [1e9, 60, false, 1, 400], [37, 11, false, 1, 1 << 20], [5, 60, true, 1, 96]] as const;
+      for (const [chunkTokens, rowsPerTask, wide, slices, gatherBytes] of cases) {
+        const got = await withThreadPool(() => counted(streams, ctx, chunkTokens, rowsPerTask, wide, slices, gatherBytes), slices);
         if (chunkTokens < 1e9) expect(got.chunks).toBeGreaterThan(20);
+        if (gatherBytes === 96 && chunkTokens === 1e9) expect(got.lone).toBeGreaterThan(0);
         expect(sorted(got.cells)).toEqual(expected);
         expect(got.pairs).toBe(events);
       }
@@ -193,12 +207,12 @@ describe('chunked row counting equals counting by definition', () => {
   }
 
   for (const wide of [false, true]) {
-    it(`a chunk holds its own tokens once, indexed by term in corpus order (${wide ? '4' : '2'}-byte ids)`, async () => {
+    it(`a chunk holds its own tokens once and counts them by term (${wide ? '4' : '2'}-byte ids)`, async () => {
       const docs = zipfDocuments(3, 30, 20, 0.2);
       const streams = writeStreams(docs, 3, `index-${wide}`);
       const lengths = streamLengths(streams);
       const total = lengths.reduce((s, n) => s + n, 0);
-      const chunk = await withThreadPool(() => loadChunk(streams, lengths, 50, 170, 4, new ChunkMemory(120, 4, N_TERMS, wide), 0, 2), 2);
+      const { chunk } = await withThreadPool(() => loadChunk(streams, lengths, 50, 170, 4, new ChunkMemory(120, 4, N_TERMS, wide), 0, 2), 2);
       const stream = docs.flatMap((d) => [...d, DOCUMENT_END]);
       expect(total).toBe(stream.length);
       // the tokens either side that windows reach, then sentinels; narrow ids code −1 and DOCUMENT_END as 0xFFFE, 0xFFFF
@@ -206,14 +220,9 @@ describe('chunked row counting equals counting by definition', () => {
       expect([...chunk.ids.subarray(1, chunk.ids.length - 1)]).toEqual(stream.slice(46, 174).map(code));
       expect(chunk.ids[0]).toBe(code(DOCUMENT_END));
       expect(chunk.ids[chunk.ids.length - 1]).toBe(code(DOCUMENT_END));
-      for (let t = 0; t < N_TERMS; t++) {
-        const own = [];
-        for (let g = 50; g < 170; g++) if (stream[g] === t) own.push(g - 46 + 1);
-        expect([...chunk.positions.subarray(chunk.rowStart[t], chunk.rowStart[t + 1])]).toEqual(own);
-      }
-      const ends = [];
-      for (let g = 50; g < 170; g++) if (stream[g] === DOCUMENT_END) ends.push(g - 46 + 1);
-      expect([...chunk.documentEnds]).toEqual(ends);
+      const own = stream.slice(50, 170);
+      for (let t = 0; t < N_TERMS; t++) expect(chunk.rowStart[t + 1] - chunk.rowStart[t]).toBe(own.filter((id) => id === t).length);
+      expect(chunk.documentEnds).toBe(own.filter((id) => id === DOCUMENT_END).length);
     });
   }
 });

@@ -2,13 +2,11 @@
  * The count stage's view of the corpus: the token streams of all splits, in split order, form one stream of
  * final term ids. It is counted in chunks of at most a budgeted number of tokens. A chunk is loaded into
  * shared memory with the tokens either side that its windows reach, between two DOCUMENT_END sentinels, and
- * indexed: the positions of its own tokens grouped by term id (a counting sort), so that the row of a term is
- * counted from that term's occurrences alone, on any thread. Memory: at most 8 bytes a token of the chunk (ids
- * and positions), whatever the corpus size.
+ * its terms counted, so that the count tasks know how many occurrences each row has (src/count/rows-map.ts
+ * gathers them). Memory: at most 4 bytes a token of the chunk, whatever the corpus size.
  *
  * Loading runs in slices, on the threads (src/count/chunk-map.ts): each slice is read, mapped to final ids and
- * its terms counted (fillSlice); once every slice's counts are known, each slice writes its positions at its
- * own offsets (indexSlice), so the index is the same whatever the slices.
+ * its terms and document ends counted (fillSlice).
  */
 import { closeSync, openSync, readSync, statSync } from 'node:fs';
 import { giveBuffer, takeBuffer } from '../store/buffer-pool.js';
@@ -38,6 +36,11 @@ const NARROW_DOCUMENT_END = 0xffff;
 /** Most terms whose ids fit the narrow codes. */
 const NARROW_MAX_ROWS = NARROW_OUT;
 
+/** Whether a chunk's ids over nRows terms take 2 bytes (see ChunkIds). */
+export function narrowIds(nRows: number): boolean {
+  return nRows <= NARROW_MAX_ROWS;
+}
+
 /** A loaded chunk, in shared memory (the typed arrays' buffers are SharedArrayBuffers). */
 export interface Chunk {
   /** Final ids of the stream entries [lo, hi): the chunk's own [from, to) and the margins, document-end sentinels at both ends. */
@@ -45,11 +48,10 @@ export interface Chunk {
   /** Index into ids of the chunk's first own token and one past its last. */
   ownStart: number;
   ownEnd: number;
-  /** Positions (into ids) of the own tokens of term t: positions[rowStart[t] .. rowStart[t + 1]), ascending. */
-  positions: Int32Array;
+  /** Occurrences among the own tokens of the terms before t: term t has rowStart[t + 1] - rowStart[t]. */
   rowStart: Int32Array;
-  /** Positions (into ids) of the DOCUMENT_END markers among the own tokens, ascending. */
-  documentEnds: Int32Array;
+  /** DOCUMENT_END markers among the own tokens. */
+  documentEnds: number;
   /** Corpus-wide index of the document the chunk's first own token belongs to. */
   firstDocument: number;
 }
@@ -63,8 +65,6 @@ export interface ChunkSource {
   ownStart: number;
   ownEnd: number;
   nRows: number;
-  /** All the memory the positions may take, touched by the slices in parallel before the index is written. */
-  positionSpace: Int32Array;
 }
 
 /** One slice of a chunk's ids, [start, end) as indexes into ids. */
@@ -102,29 +102,29 @@ export function sharedInt32(n: number): Int32Array {
  */
 export class ChunkMemory {
   private readonly ids: SharedArrayBuffer;
-  private readonly positions: SharedArrayBuffer;
   private readonly rowStart: SharedArrayBuffer;
+  private readonly gather: SharedArrayBuffer;
   /** Whether ids are uint16 (see ChunkIds). */
   readonly narrow: boolean;
 
-  /** For chunks of at most `maxOwn` own entries and `margin` either side, over nRows terms (`wide`: int32 ids whatever nRows). */
-  constructor(maxOwn: number, margin: number, readonly nRows: number, wide = false) {
-    this.narrow = !wide && nRows <= NARROW_MAX_ROWS;
+  /**
+   * For chunks of at most `maxOwn` own entries and `margin` either side, over nRows terms (`wide`: int32 ids
+   * whatever nRows), with a gathering buffer of `gatherBytes` (gather.ts).
+   */
+  constructor(maxOwn: number, margin: number, readonly nRows: number, wide = false, gatherBytes = 1 << 20) {
+    this.narrow = !wide && narrowIds(nRows);
     this.ids = new SharedArrayBuffer((this.narrow ? 2 : 4) * (maxOwn + 2 * margin + 2));
-    this.positions = new SharedArrayBuffer(4 * Math.max(1, maxOwn));
     this.rowStart = new SharedArrayBuffer(4 * (nRows + 1));
+    this.gather = new SharedArrayBuffer(4 * Math.ceil(gatherBytes / 4));
+  }
+
+  /** The gathering buffer: entries like the ids for windows, int32 for document numbers. */
+  gatheredOf(documents: boolean): ChunkIds {
+    return this.narrow && !documents ? new Uint16Array(this.gather) : new Int32Array(this.gather);
   }
 
   idsOf(n: number): ChunkIds {
     return this.narrow ? new Uint16Array(this.ids, 0, n) : new Int32Array(this.ids, 0, n);
-  }
-
-  get positionCapacity(): number {
-    return this.positions.byteLength / 4;
-  }
-
-  positionsOf(n: number): Int32Array {
-    return new Int32Array(this.positions, 0, n);
   }
 
   /** The term offsets, zeroed. */
@@ -145,7 +145,7 @@ export function chunkSource(streams: CorpusStreams, lengths: number[], from: num
   const ids = memory.idsOf(hi - lo + 2);
   ids[0] = documentEndIn(ids);
   ids[hi - lo + 1] = documentEndIn(ids);
-  return { streams, lengths, lo, ids, ownStart: 1 + from - lo, ownEnd: 1 + to - lo, nRows, positionSpace: memory.positionsOf(memory.positionCapacity) };
+  return { streams, lengths, lo, ids, ownStart: 1 + from - lo, ownEnd: 1 + to - lo, nRows };
 }
 
 /** The chunk's entries between its sentinels cut into `n` slices. */
@@ -199,11 +199,6 @@ export function fillSlice(source: ChunkSource, slice: ChunkSlice): SliceCounts {
   } finally {
     giveBuffer(stage);
   }
-  // this slice's share of the positions' memory, touched here (fresh pages are slow to touch, and the index
-  // pass writes them in no order, from every slice at once)
-  const len = ids.length - 2;
-  const space = source.positionSpace;
-  space.fill(0, Math.floor((space.length * (slice.start - 1)) / len), Math.floor((space.length * (slice.end - 1)) / len));
   const { nRows } = source;
   const documentEnd = documentEndIn(ids);
   const counts = new Int32Array(nRows);
@@ -228,41 +223,15 @@ function readFully(fd: number, file: string, bytes: Buffer, length: number, posi
   }
 }
 
-/** Where each slice writes its positions: per slice, the first index of each term's, and of its document ends. */
-export function sliceOffsets(counted: SliceCounts[], memory: ChunkMemory): { rowStart: Int32Array; offsets: Int32Array[]; endOffsets: number[]; ends: number } {
+/** The chunk from its source and its slices' counts (in corpus order). */
+export function chunkOf(source: ChunkSource, counted: SliceCounts[], memory: ChunkMemory, firstDocument: number): Chunk {
   const nRows = memory.nRows;
   const rowStart = memory.rowStartOf();
-  for (const c of counted) for (let t = 0; t < nRows; t++) rowStart[t + 1] += c.counts[t];
-  for (let t = 0; t < nRows; t++) rowStart[t + 1] += rowStart[t];
-  const next = rowStart.slice(0, nRows);
-  const endOffsets: number[] = [];
-  let ends = 0;
-  // slices in corpus order: each term's positions stay ascending; the counts become the slices' offsets
-  const offsets = counted.map((c) => {
-    const start = next.slice();
-    for (let t = 0; t < nRows; t++) next[t] += c.counts[t];
-    endOffsets.push(ends);
-    ends += c.ends;
-    return start;
-  });
-  return { rowStart, offsets, endOffsets, ends };
-}
-
-/** Writes a slice's own positions by term, from its offsets, and its document ends. */
-export function indexSlice(source: ChunkSource, slice: ChunkSlice, offsets: Int32Array, endOffset: number, positions: Int32Array, documentEnds: Int32Array): void {
-  const { ids, nRows } = source;
-  const documentEnd = documentEndIn(ids);
-  let e = endOffset;
-  const start = Math.max(slice.start, source.ownStart);
-  const end = Math.min(slice.end, source.ownEnd);
-  for (let p = start; p < end; p++) {
-    const id = ids[p];
-    if (id >>> 0 < nRows) positions[offsets[id]++] = p;
-    else if (id === documentEnd) documentEnds[e++] = p;
+  let documentEnds = 0;
+  for (const c of counted) {
+    for (let t = 0; t < nRows; t++) rowStart[t + 1] += c.counts[t];
+    documentEnds += c.ends;
   }
-}
-
-/** The chunk from its source and index. */
-export function chunkOf(source: ChunkSource, rowStart: Int32Array, positions: Int32Array, documentEnds: Int32Array, firstDocument: number): Chunk {
-  return { ids: source.ids, ownStart: source.ownStart, ownEnd: source.ownEnd, positions, rowStart, documentEnds, firstDocument };
+  for (let t = 0; t < nRows; t++) rowStart[t + 1] += rowStart[t];
+  return { ids: source.ids, ownStart: source.ownStart, ownEnd: source.ownEnd, rowStart, documentEnds, firstDocument };
 }

@@ -1,6 +1,6 @@
 import { promises as fsp, rmSync } from 'node:fs';
 import path from 'node:path';
-import type { KindredConfig, Normalization, WeightingConfig } from '../config/types.js';
+import type { ContextsConfig, KindredConfig, Normalization, WeightingConfig } from '../config/types.js';
 import { planSplits } from '../ingest/split.js';
 import type { IngestStats } from '../ingest/types.js';
 import { runMap, type MapRun } from '../exec/pool.js';
@@ -15,9 +15,10 @@ import type { MergeTask } from './merge-map.js';
 import { TermTable, compareBytes, type TermBytes } from './term-table.js';
 import type { RowRange } from './partition.js';
 import {
-  ChunkMemory, chunkOf, chunkSource, planChunks, planSlices, sharedInt32, sliceOffsets, streamLengths, type Chunk, type CorpusStreams, type SliceCounts,
+  ChunkMemory, chunkOf, chunkSource, narrowIds, planChunks, planSlices, sharedInt32, streamLengths, type Chunk, type ChunkSlice, type CorpusStreams, type SliceCounts,
 } from './chunks.js';
 import type { RowsTask } from './rows-map.js';
+import { gatherTasks, gatherWidth, planGroups, type RowGroup } from './gather.js';
 
 /** How the counting passes run: where relative config paths start, and how many worker threads to use. */
 export interface CountExec {
@@ -156,50 +157,69 @@ export async function tokenStreams(
   return { refs: run.results.map((r) => r.stream!), finalIds };
 }
 
-/** Share of the memory budget a chunk of the corpus takes when counted (8 bytes a token: ids and positions). */
-const CHUNK_SHARE = 0.5;
-/** Most tokens of a chunk (its positions are int32). */
+/** Share of the memory budget a chunk of the corpus takes when counted (at most 4 bytes a token: its ids). */
+const CHUNK_SHARE = 0.25;
+/** Most tokens of a chunk (its term counts are int32). */
 const MAX_CHUNK_TOKENS = 2 ** 30;
 
 /** Tokens of a chunk that fit a memory budget. */
 export function chunkTokensFor(memoryMiB: number): number {
-  return Math.min(MAX_CHUNK_TOKENS, Math.max(1 << 16, Math.floor((memoryMiB * 1024 * 1024 * CHUNK_SHARE) / 8)));
+  return Math.min(MAX_CHUNK_TOKENS, Math.max(1 << 16, Math.floor((memoryMiB * 1024 * 1024 * CHUNK_SHARE) / 4)));
+}
+
+/** Share of the memory budget the gathering buffer takes (gather.ts). */
+const GATHER_SHARE = 0.25;
+/**
+ * Groups a chunk's rows are gathered in, if the budget allows: each is one scan of the chunk (split between the
+ * threads), and a bigger buffer is more fresh memory to touch, which is slow (docs/performance.md).
+ */
+const GROUPS_PER_CHUNK = 4;
+/** Least bytes of the gathering buffer, unless the budget is smaller. */
+const MIN_GATHER_BYTES = 8 << 20;
+
+/** Bytes of the gathering buffer for chunks of at most `maxOwn` tokens. */
+export function gatherBytesFor(memoryMiB: number, maxOwn: number, contexts: ContextsConfig, nRows: number): number {
+  const entryBytes = contexts.type === 'window' && narrowIds(nRows) ? 2 : 4;
+  const wanted = Math.max(MIN_GATHER_BYTES, Math.ceil((maxOwn * gatherWidth(contexts).width * entryBytes) / GROUPS_PER_CHUNK));
+  return Math.min(Math.floor(memoryMiB * 1024 * 1024 * GATHER_SHARE), wanted);
+}
+
+/** A loaded chunk, and the slices it was loaded in with their counts (for gathering, gather.ts). */
+export interface LoadedChunk {
+  chunk: Chunk;
+  slices: ChunkSlice[];
+  counted: SliceCounts[];
 }
 
 /**
- * Loads and indexes the chunk owning stream entries [from, to) in one slice per worker (chunks.ts,
- * chunk-map.ts); `firstDocument` is the number of documents that end before `from`.
+ * Loads the chunk owning stream entries [from, to) in one slice per worker (chunks.ts, chunk-map.ts);
+ * `firstDocument` is the number of documents that end before `from`.
  */
 export async function loadChunk(
   streams: CorpusStreams, lengths: number[], from: number, to: number, margin: number, memory: ChunkMemory, firstDocument: number, workers: number,
-): Promise<Chunk> {
+): Promise<LoadedChunk> {
   const source = chunkSource(streams, lengths, from, to, margin, memory);
   const slices = planSlices(source, workers);
-  const filled = await runMap('chunk', () => ({ source }), slices.map((slice) => ({ phase: 'fill' as const, slice })), workers);
-  const { rowStart, offsets, endOffsets, ends } = sliceOffsets(filled.results as SliceCounts[], memory);
-  const positions = memory.positionsOf(rowStart[memory.nRows]);
-  const documentEnds = sharedInt32(ends).subarray(0, ends);
-  const index = slices.map((slice, i) => ({ phase: 'index' as const, slice, offsets: offsets[i], endOffset: endOffsets[i], positions, documentEnds }));
-  await runMap('chunk', () => ({ source }), index, workers);
-  return chunkOf(source, rowStart, positions, documentEnds, firstDocument);
+  const filled = await runMap('chunk', () => ({ source }), slices.map((slice) => ({ slice })), workers);
+  return { chunk: chunkOf(source, filled.results, memory, firstDocument), slices, counted: filled.results };
 }
 
 /** Count tasks per thread and chunk: enough that threads finish together, few enough that each is worth a task. */
 const TASKS_PER_WORKER = 4;
 
 /**
- * A chunk's rows cut into count tasks of about equal work (a row's work is its occurrences in the chunk),
- * never across a part's boundary, so that each run belongs to one part.
+ * A group's rows cut into count tasks of about equal work (a row's work is its occurrences in the chunk),
+ * never across a part's boundary, so that each run belongs to one part; a lone row is one task.
  */
-function planRowTasks(rowStart: Int32Array, ranges: RowRange[], workers: number): { firstRow: number; endRow: number; part: number; cost: number }[] {
-  const nRows = ranges[ranges.length - 1].endRow;
-  const goal = Math.max(1, rowStart[nRows] / (workers * TASKS_PER_WORKER));
+function planRowTasks(rowStart: Int32Array, ranges: RowRange[], group: RowGroup, workers: number): { firstRow: number; endRow: number; part: number; cost: number }[] {
+  const goal = Math.max(1, (rowStart[group.end] - rowStart[group.first]) / (workers * TASKS_PER_WORKER));
   const tasks: { firstRow: number; endRow: number; part: number; cost: number }[] = [];
   for (const [part, range] of ranges.entries()) {
-    let first = range.firstRow;
-    while (first < range.endRow) {
+    let first = Math.max(range.firstRow, group.first);
+    const last = Math.min(range.endRow, group.end);
+    while (first < last) {
       let end = first + 1;
-      while (end < range.endRow && rowStart[end + 1] - rowStart[first] <= goal) end++;
+      while (end < last && rowStart[end + 1] - rowStart[first] <= goal) end++;
       tasks.push({ firstRow: first, endRow: end, part, cost: rowStart[end] - rowStart[first] });
       first = end;
     }
@@ -252,10 +272,14 @@ export async function countPairs(
   let removed = 0;
   progress.start('count', total, 'tokens');
   let done = 0;
-  const memory = new ChunkMemory(chunks.reduce((m, k) => Math.max(m, k.to - k.from), 0), margin, nRows);
+  const maxOwn = chunks.reduce((m, k) => Math.max(m, k.to - k.from), 0);
+  const memory = new ChunkMemory(maxOwn, margin, nRows, false, gatherBytesFor(cfg.memoryMiB, maxOwn, ctx, nRows));
+  const gathered = memory.gatheredOf(ctx.type === 'document');
+  const { width } = gatherWidth(ctx);
+  const capacity = Math.max(1, Math.floor(gathered.byteLength / (width * gathered.BYTES_PER_ELEMENT)));
   for (const [c, { from, to }] of chunks.entries()) {
-    const chunk = await loadChunk(streams, lengths, from, to, margin, memory, firstDocument, exec.workers);
-    firstDocument += chunk.documentEnds.length;
+    const { chunk, slices, counted } = await loadChunk(streams, lengths, from, to, margin, memory, firstDocument, exec.workers);
+    firstDocument += chunk.documentEnds;
     // streams wholly behind the next chunk's reach are no longer needed
     const keepFrom = c + 1 < chunks.length ? chunks[c + 1].from - margin : total;
     for (let end = 0, f = 0; f < lengths.length; f++) {
@@ -265,29 +289,35 @@ export async function countPairs(
         removed = f + 1;
       }
     }
-    // the costliest tasks first, so that the threads finish together
-    const planned = planRowTasks(chunk.rowStart, ranges, exec.workers);
-    const order = planned.map((_, i) => i).sort((a, b) => planned[b].cost - planned[a].cost || a - b);
+    // rows in groups whose occurrences fit the gathering buffer: each group gathered in slices on the threads,
+    // then counted in tasks on the threads, the costliest first, so that the threads finish together
     const chunkCost = Math.max(1, chunk.rowStart[nRows]);
-    const tasks: RowsTask[] = order.map((i) => ({
-      firstRow: planned[i].firstRow, endRow: planned[i].endRow,
-      file: path.join(runDir, `c${String(c).padStart(5, '0')}-t${String(i).padStart(5, '0')}.bin`),
-      progress: ((to - from) * planned[i].cost) / chunkCost,
-    }));
-    const run = await runMap('rows', () => ({ chunk, contexts: ctx, weights, nCols }), tasks, exec.workers, (n) => progress.update((done += n)));
-    threads = Math.max(threads, run.threads);
-    for (const [j, r] of run.results.entries()) {
-      pairs += r.pairs;
-      for (let i = 0; i < r.rowSums.length; i++) {
-        early.rowSums[tasks[j].firstRow + i] += r.rowSums[i];
-        early.rowNnz[tasks[j].firstRow + i] += r.rowNnz[i];
+    for (const [g, group] of planGroups(chunk.rowStart, nRows, capacity).entries()) {
+      if (group.fits && chunk.rowStart[group.end] > chunk.rowStart[group.first]) {
+        await runMap('gather', () => ({ chunk, contexts: ctx, buffer: gathered }), gatherTasks(chunk, slices, counted, group, width), exec.workers);
       }
+      const planned = planRowTasks(chunk.rowStart, ranges, group, exec.workers);
+      const order = planned.map((_, i) => i).sort((a, b) => planned[b].cost - planned[a].cost || a - b);
+      const tasks: RowsTask[] = order.map((i) => ({
+        firstRow: planned[i].firstRow, endRow: planned[i].endRow,
+        file: path.join(runDir, `c${String(c).padStart(5, '0')}-g${String(g).padStart(5, '0')}-t${String(i).padStart(5, '0')}.bin`),
+        progress: ((to - from) * planned[i].cost) / chunkCost,
+      }));
+      const run = await runMap('rows', () => ({ chunk, contexts: ctx, weights, nCols, gathered, group }), tasks, exec.workers, (n) => progress.update((done += n)));
+      threads = Math.max(threads, run.threads);
+      for (const [j, r] of run.results.entries()) {
+        pairs += r.pairs;
+        for (let i = 0; i < r.rowSums.length; i++) {
+          early.rowSums[tasks[j].firstRow + i] += r.rowSums[i];
+          early.rowNnz[tasks[j].firstRow + i] += r.rowNnz[i];
+        }
+      }
+      for (const p of run.partials) for (let i = 0; i < nCols; i++) early.colSums[i] += p.colSums[i];
+      // runs in row order within each part
+      const fileOf = new Array<string>(planned.length);
+      for (const [j, i] of order.entries()) fileOf[i] = tasks[j].file;
+      for (const [i, t] of planned.entries()) partRuns[t.part].push(fileOf[i]);
     }
-    for (const p of run.partials) for (let i = 0; i < nCols; i++) early.colSums[i] += p.colSums[i];
-    // runs in row order within each part
-    const fileOf = new Array<string>(planned.length);
-    for (const [j, i] of order.entries()) fileOf[i] = tasks[j].file;
-    for (const [i, t] of planned.entries()) partRuns[t.part].push(fileOf[i]);
   }
   for (const r of streams.refs) rmSync(r.file, { force: true });
 

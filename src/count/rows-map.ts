@@ -1,12 +1,15 @@
 /**
- * The count task, run in a worker thread or the main thread alike: the rows [firstRow, endRow) of one loaded
- * chunk, each counted from its term's occurrences (the chunk's index) into a dense scratch row, written as a
- * sorted run of (row, col, scaled sum) records. Every cell is summed in corpus order, whatever the thread,
- * so the runs do not depend on the thread count. The scratch row stays in cache for the columns of frequent
- * terms (ids are in descending count order), which is where most of a row's events fall.
+ * The count task, run in a worker thread or the main thread alike: the rows [firstRow, endRow) of one group of
+ * a loaded chunk, whose occurrences were gathered by row in corpus order (gather.ts). Each row is counted from
+ * its occurrences into a dense scratch row and written as a sorted run of (row, col, scaled sum) records. Every
+ * cell is summed in corpus order, whatever the thread and the groups, so the runs depend on neither. The
+ * scratch row stays in cache for the columns of frequent terms (ids are in descending count order), which is
+ * where most of a row's events fall. A lone row with more occurrences than the buffer holds is gathered here,
+ * in pieces, and counted piece by piece.
  */
 import type { ContextsConfig } from '../config/types.js';
-import { documentEndIn, type Chunk } from './chunks.js';
+import { documentEndIn, type Chunk, type ChunkIds } from './chunks.js';
+import { gatherRow, gatherWidth, type RowGroup } from './gather.js';
 import { RunWriter } from './runs.js';
 
 export interface RowsSetup {
@@ -15,6 +18,9 @@ export interface RowsSetup {
   /** Integer weight per distance 1..window (windowWeights), for window contexts. */
   weights: Float64Array;
   nCols: number;
+  /** The shared gathering buffer: the group's occurrences (gathered unless the group is a lone row). */
+  gathered: ChunkIds;
+  group: RowGroup;
 }
 
 export interface RowsTask {
@@ -84,6 +90,7 @@ class RowOutput {
   }
 }
 
+
 /**
  * Sums by column of the row being counted, and the columns it touched: kept by the thread from chunk to chunk
  * (all zero between rows), as fresh memory is slow to touch.
@@ -93,6 +100,47 @@ let scratch: { sums: Float64Array; touched: Uint32Array } | null = null;
 function scratchFor(nCols: number): { sums: Float64Array; touched: Uint32Array } {
   if (scratch === null || scratch.sums.length !== nCols) scratch = { sums: new Float64Array(nCols), touched: new Uint32Array(nCols) };
   return scratch;
+}
+
+/** Pair events added by the last call of addWindows. */
+let added = 0;
+
+/**
+ * Adds the gathered windows [from, to) of buf to the scratch row (sums, and touched holding its first n touched
+ * columns); returns the count of touched columns. A side of a window ends at a document end and skips
+ * out-of-vocabulary tokens.
+ */
+function addWindows(
+  buf: ChunkIds, from: number, to: number, left: number, right: number, weights: Float64Array, sums: Float64Array, touched: Uint32Array, n: number,
+  nRows: number, documentEnd: number,
+): number {
+  const width = left + right;
+  let events = 0;
+  for (let q = from; q < to; q++) {
+    const o = q * width;
+    for (let d = 1; d <= left; d++) {
+      const c = buf[o + d - 1];
+      if (c >>> 0 >= nRows) {
+        if (c === documentEnd) break;
+        continue;
+      }
+      if (sums[c] === 0) touched[n++] = c;
+      sums[c] += weights[d];
+      events++;
+    }
+    for (let d = 1; d <= right; d++) {
+      const c = buf[o + left + d - 1];
+      if (c >>> 0 >= nRows) {
+        if (c === documentEnd) break;
+        continue;
+      }
+      if (sums[c] === 0) touched[n++] = c;
+      sums[c] += weights[d];
+      events++;
+    }
+  }
+  added = events;
+  return n;
 }
 
 /** Rows of a chunk as sorted runs, with their sums. */
@@ -118,43 +166,40 @@ export class RowsMapper {
     return { entries: out.records, pairs, rowSums: out.rowSums, rowNnz: out.rowNnz };
   }
 
+  /**
+   * Calls `add(from, to)` with the gathered occurrences of row r, in corpus order: a range of the shared buffer,
+   * or, for a lone row, each piece gathered in turn.
+   */
+  private occurrencesOf(r: number, add: (from: number, to: number) => void): void {
+    const { chunk, contexts, gathered, group } = this.setup;
+    const { rowStart } = chunk;
+    if (group.fits) {
+      const base = rowStart[group.first];
+      add(rowStart[r] - base, rowStart[r + 1] - base);
+      return;
+    }
+    for (let at = chunk.ownStart, document = chunk.firstDocument; at < chunk.ownEnd;) {
+      const piece = gatherRow(chunk, contexts, r, at, document, gathered);
+      add(0, piece.gathered);
+      at = piece.at;
+      document = piece.document;
+    }
+  }
+
   private windowRows(task: RowsTask, out: RowOutput): number {
-    const { chunk, contexts, weights, nCols } = this.setup;
-    const { ids, positions, rowStart } = chunk;
+    const { chunk, contexts, weights, nCols, gathered } = this.setup;
     // an entry is a term id exactly when (id >>> 0) < nRows, for int32 and uint16 ids alike (chunks.ts)
-    const nRows = rowStart.length - 1;
-    const documentEnd = documentEndIn(ids);
-    const k = contexts.window;
-    const left = contexts.direction !== 'right' ? k : 0;
-    const right = contexts.direction !== 'left' ? k : 0;
+    const nRows = chunk.rowStart.length - 1;
+    const documentEnd = documentEndIn(chunk.ids);
+    const { left, right } = gatherWidth(contexts);
     const { sums, touched } = scratchFor(nCols);
     let pairs = 0;
     for (let r = task.firstRow; r < task.endRow; r++) {
       let n = 0;
-      const end = rowStart[r + 1];
-      for (let q = rowStart[r]; q < end; q++) {
-        const p = positions[q];
-        for (let d = 1; d <= left; d++) {
-          const c = ids[p - d];
-          if (c >>> 0 >= nRows) {
-            if (c === documentEnd) break;
-            continue;
-          }
-          if (sums[c] === 0) touched[n++] = c;
-          sums[c] += weights[d];
-          pairs++;
-        }
-        for (let d = 1; d <= right; d++) {
-          const c = ids[p + d];
-          if (c >>> 0 >= nRows) {
-            if (c === documentEnd) break;
-            continue;
-          }
-          if (sums[c] === 0) touched[n++] = c;
-          sums[c] += weights[d];
-          pairs++;
-        }
-      }
+      this.occurrencesOf(r, (from, to) => {
+        n = addWindows(gathered, from, to, left, right, weights, sums, touched, n, nRows, documentEnd);
+        pairs += added;
+      });
       if (n === 0) continue;
       const cols = touched.subarray(0, n);
       cols.sort();
@@ -164,39 +209,25 @@ export class RowsMapper {
     return pairs;
   }
 
-  /** Term × document counts: a row's occurrences are in corpus order, so its documents come out ascending. */
+  /** Term × document counts: a row's occurrences are gathered in corpus order, so its documents come out ascending. */
   private documentRows(task: RowsTask, out: RowOutput): number {
-    const { chunk } = this.setup;
-    const { positions, rowStart, documentEnds, firstDocument } = chunk;
-    const nEnds = documentEnds.length;
-    let pairs = 0;
+    const { chunk, gathered } = this.setup;
     for (let r = task.firstRow; r < task.endRow; r++) {
-      let e = 0;
       let doc = -1;
       let count = 0;
-      const end = rowStart[r + 1];
-      for (let q = rowStart[r]; q < end; q++) {
-        const p = positions[q];
-        // the document of p: how many documents end before it (a search from the last one found)
-        let lo = e;
-        let hi = nEnds;
-        while (lo < hi) {
-          const mid = (lo + hi) >>> 1;
-          if (documentEnds[mid] < p) lo = mid + 1;
-          else hi = mid;
+      this.occurrencesOf(r, (from, to) => {
+        for (let q = from; q < to; q++) {
+          if (gathered[q] !== doc) {
+            if (count > 0) out.append(r, doc, count);
+            doc = gathered[q];
+            count = 0;
+          }
+          count++;
         }
-        e = lo;
-        if (e !== doc) {
-          if (count > 0) out.append(r, firstDocument + doc, count);
-          doc = e;
-          count = 0;
-        }
-        count++;
-        pairs++;
-      }
-      if (count > 0) out.append(r, firstDocument + doc, count);
+      });
+      if (count > 0) out.append(r, doc, count);
     }
-    return pairs;
+    return chunk.rowStart[task.endRow] - chunk.rowStart[task.firstRow];
   }
 
   finish(): RowsPartial {

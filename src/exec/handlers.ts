@@ -4,7 +4,9 @@ import {
   VocabularyMapper, transferablesOf as countTransferables, type SplitResult, type VocabularyPartial, type VocabularySetup,
 } from '../count/map.js';
 import { RowsMapper, type RowsPartial, type RowsResult, type RowsSetup, type RowsTask } from '../count/rows-map.js';
-import { ChunkMapper, type ChunkResult, type ChunkSetup, type ChunkTask } from '../count/chunk-map.js';
+import { ChunkMapper, type ChunkSetup, type ChunkTask } from '../count/chunk-map.js';
+import type { SliceCounts } from '../count/chunks.js';
+import { GatherMapper, type GatherSetup, type GatherTask } from '../count/gather.js';
 import type { WeightResult, WeightSetup, WeightTask } from '../weight/map.js';
 import type { MergeResult, MergeSetup, MergeTask } from '../count/merge-map.js';
 
@@ -16,7 +18,8 @@ export interface Mapper<Task, Result, Partial> {
 
 export interface MapKinds {
   vocabulary: { setup: VocabularySetup; task: InputSplit; result: SplitResult; partial: VocabularyPartial };
-  chunk: { setup: ChunkSetup; task: ChunkTask; result: ChunkResult; partial: Record<string, never> };
+  chunk: { setup: ChunkSetup; task: ChunkTask; result: SliceCounts; partial: Record<string, never> };
+  gather: { setup: GatherSetup; task: GatherTask; result: null; partial: Record<string, never> };
   rows: { setup: RowsSetup; task: RowsTask; result: RowsResult; partial: RowsPartial };
   weight: { setup: WeightSetup; task: WeightTask; result: WeightResult; partial: Record<string, never> };
   merge: { setup: MergeSetup; task: MergeTask; result: MergeResult; partial: Record<string, never> };
@@ -43,6 +46,10 @@ export async function createMapper(kind: MapKind, setup: unknown): Promise<AnyMa
     const { MergeMapper } = await import('../count/merge-map.js');
     const m = new MergeMapper(setup as MergeSetup);
     return { run: (t, p) => m.run(t as MergeTask, p), finish: () => m.finish() };
+  }
+  if (kind === 'gather') {
+    const m = new GatherMapper(setup as GatherSetup);
+    return { run: (t) => m.run(t as GatherTask), finish: () => m.finish() };
   }
   if (kind === 'chunk') {
     const m = new ChunkMapper(setup as ChunkSetup);
