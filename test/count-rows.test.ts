@@ -18,7 +18,7 @@ import path from 'node:path';
 import type { ContextsConfig } from '../src/config/types.js';
 import { ChunkMemory, planChunks, streamLengths, type CorpusStreams } from '../src/count/chunks.js';
 import { loadChunk } from '../src/count/passes.js';
-import { gatherTasks, gatherWidth, planGroups } from '../src/count/gather.js';
+import { gatherTasks, gatherWidth, groupLayout, planGroups } from '../src/count/gather.js';
 import { runMap, withThreadPool } from '../src/exec/pool.js';
 import { RowsMapper } from '../src/count/rows-map.js';
 import { RunReader } from '../src/count/runs.js';
@@ -147,9 +147,10 @@ async function counted(
     const { width } = gatherWidth(ctx);
     const capacity = Math.floor(gathered.byteLength / (width * gathered.BYTES_PER_ELEMENT));
     for (const group of planGroups(chunk.rowStart, N_TERMS, capacity)) {
-      if (group.fits) await runMap('gather', () => ({ chunk, contexts: ctx, buffer: gathered }), gatherTasks(chunk, loadedIn, sliceCounts, group, width), slices);
+      const layout = group.fits ? groupLayout(group, sliceCounts) : null;
+      if (layout !== null) await runMap('gather', () => ({ chunk, contexts: ctx, buffer: gathered }), gatherTasks(chunk, loadedIn, sliceCounts, group, layout, width), slices);
       else lone++;
-      const mapper = new RowsMapper({ chunk, contexts: ctx, weights, nCols: ctx.type === 'document' ? 10_000 : N_TERMS, gathered, group });
+      const mapper = new RowsMapper({ chunk, contexts: ctx, weights, nCols: ctx.type === 'document' ? 10_000 : N_TERMS, gathered, group, layout });
       for (let first = group.first; first < group.end; first += rowsPerTask) {
         const endRow = Math.min(group.end, first + rowsPerTask);
         const file = path.join(work, `run-${run++}.bin`);

@@ -2,13 +2,13 @@
  * Gathering a group of rows' occurrences out of a loaded chunk (chunks.ts) into one shared buffer, grouped by
  * row in corpus order (a counting sort from the chunk's term counts per slice): for window contexts each
  * occurrence's window, for document contexts its document. Each slice of the chunk is scanned on its own
- * thread and writes at its own offsets, so the buffer is the same whatever the slices; the count tasks
- * (rows-map.ts) then read each row's occurrences in order. Scanning the chunk in order and writing each
+ * thread and writes its own share of the buffer (groupLayout); the count tasks (rows-map.ts) then read each
+ * row's occurrences slice by slice, that is in corpus order. Scanning the chunk in order and writing each
  * window once costs far less than reading every occurrence's window where it lies in the chunk (a cache miss
  * apiece, docs/performance.md).
  */
 import type { ContextsConfig } from '../config/types.js';
-import { documentEndIn, type Chunk, type ChunkIds, type ChunkSlice, type SliceCounts } from './chunks.js';
+import { documentEndIn, sharedInt32, type Chunk, type ChunkIds, type ChunkSlice, type SliceCounts } from './chunks.js';
 
 /** Entries gathered per occurrence: a window's ids (left side first), or one document number. */
 export function gatherWidth(contexts: ContextsConfig): { left: number; right: number; width: number } {
@@ -38,6 +38,26 @@ export function planGroups(rowStart: Int32Array, nRows: number, capacity: number
   return groups;
 }
 
+/**
+ * Where a group's occurrences lie in the buffer: slice after slice (threads gathering different slices never
+ * write to the same cache lines), row after row within a slice. Entry i * (span + 1) + k is the first
+ * occurrence (an index in occurrences, not entries) of row first + k gathered from slice i, and entry
+ * i * (span + 1) + span the end of slice i's share; span = end - first. Shared, for the count tasks.
+ */
+export function groupLayout(group: RowGroup, counted: SliceCounts[]): Int32Array {
+  const span = group.end - group.first;
+  const starts = sharedInt32(counted.length * (span + 1));
+  let at = 0;
+  for (const [i, { counts }] of counted.entries()) {
+    for (let k = 0; k < span; k++) {
+      starts[i * (span + 1) + k] = at;
+      at += counts[group.first + k];
+    }
+    starts[i * (span + 1) + span] = at;
+  }
+  return starts;
+}
+
 /** One slice's share of gathering a group: where in the buffer each of the group's rows starts for it. */
 export interface GatherTask {
   slice: ChunkSlice;
@@ -50,16 +70,13 @@ export interface GatherTask {
 }
 
 /** The gathering tasks of a group, one per slice (slices and their counts in corpus order, as the chunk was loaded). */
-export function gatherTasks(chunk: Chunk, slices: ChunkSlice[], counted: SliceCounts[], group: RowGroup, width: number): GatherTask[] {
+export function gatherTasks(chunk: Chunk, slices: ChunkSlice[], counted: SliceCounts[], group: RowGroup, layout: Int32Array, width: number): GatherTask[] {
   const { first, end } = group;
-  const { rowStart } = chunk;
-  const next = new Int32Array(end - first);
-  for (let r = first; r < end; r++) next[r - first] = (rowStart[r] - rowStart[first]) * width;
+  const span = end - first;
   let document = chunk.firstDocument;
   return slices.map((slice, i) => {
-    const offsets = next.slice();
-    const counts = counted[i].counts;
-    for (let r = first; r < end; r++) next[r - first] += counts[r] * width;
+    const offsets = new Int32Array(span);
+    for (let k = 0; k < span; k++) offsets[k] = layout[i * (span + 1) + k] * width;
     const task = { slice, first, end, offsets, document };
     document += counted[i].ends;
     return task;

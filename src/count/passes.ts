@@ -11,14 +11,14 @@ import type { FileChecksum } from '../store/arrow-sink.js';
 import type { Vocabulary } from '../store/vocab-file.js';
 import { exactWeights, windowWeights } from './cooccur.js';
 import { RunReader, mergeSources, MAX_ROW_WISE_COLUMNS } from './runs.js';
-import type { MergeTask } from './merge-map.js';
+import type { MergeResult, MergeTask } from './merge-map.js';
 import { TermTable, compareBytes, type TermBytes } from './term-table.js';
 import type { RowRange } from './partition.js';
 import {
   ChunkMemory, chunkOf, chunkSource, narrowIds, planChunks, planSlices, sharedInt32, streamLengths, type Chunk, type ChunkSlice, type CorpusStreams, type SliceCounts,
 } from './chunks.js';
 import type { RowsTask } from './rows-map.js';
-import { gatherTasks, gatherWidth, planGroups, type RowGroup } from './gather.js';
+import { gatherTasks, gatherWidth, groupLayout, planGroups, type RowGroup } from './gather.js';
 
 /** How the counting passes run: where relative config paths start, and how many worker threads to use. */
 export interface CountExec {
@@ -293,8 +293,9 @@ export async function countPairs(
     // then counted in tasks on the threads, the costliest first, so that the threads finish together
     const chunkCost = Math.max(1, chunk.rowStart[nRows]);
     for (const [g, group] of planGroups(chunk.rowStart, nRows, capacity).entries()) {
-      if (group.fits && chunk.rowStart[group.end] > chunk.rowStart[group.first]) {
-        await runMap('gather', () => ({ chunk, contexts: ctx, buffer: gathered }), gatherTasks(chunk, slices, counted, group, width), exec.workers);
+      const layout = group.fits ? groupLayout(group, counted) : null;
+      if (layout !== null && chunk.rowStart[group.end] > chunk.rowStart[group.first]) {
+        await runMap('gather', () => ({ chunk, contexts: ctx, buffer: gathered }), gatherTasks(chunk, slices, counted, group, layout, width), exec.workers);
       }
       const planned = planRowTasks(chunk.rowStart, ranges, group, exec.workers);
       const order = planned.map((_, i) => i).sort((a, b) => planned[b].cost - planned[a].cost || a - b);
@@ -303,7 +304,7 @@ export async function countPairs(
         file: path.join(runDir, `c${String(c).padStart(5, '0')}-g${String(g).padStart(5, '0')}-t${String(i).padStart(5, '0')}.bin`),
         progress: ((to - from) * planned[i].cost) / chunkCost,
       }));
-      const run = await runMap('rows', () => ({ chunk, contexts: ctx, weights, nCols, gathered, group }), tasks, exec.workers, (n) => progress.update((done += n)));
+      const run = await runMap('rows', () => ({ chunk, contexts: ctx, weights, nCols, gathered, group, layout }), tasks, exec.workers, (n) => progress.update((done += n)));
       threads = Math.max(threads, run.threads);
       for (const [j, r] of run.results.entries()) {
         pairs += r.pairs;
@@ -338,25 +339,31 @@ export async function countPairs(
     const weighSetup = fuse === null || earlyMarginals === null ? null
       : { weighting: fuse.weighting, normalize: fuse.normalize, valueType: fuse.valueType, marginals: earlyMarginals };
     // one part per task on the threads, each row's entries summed in a dense scratch row
-    const tasks: MergeTask[] = ranges.map((r, i) => ({
-      file: partFile(i), firstRow: r.firstRow, endRow: r.endRow, runs: partRuns[i],
+    // the largest parts first (by the count tasks' entries: exact in one chunk, an upper bound in many), so that
+    // the threads finish together
+    const size = ranges.map((r) => early.rowNnz.subarray(r.firstRow, r.endRow).reduce((s, n) => s + n, 0));
+    const order = ranges.map((_, i) => i).sort((a, b) => size[b] - size[a] || a - b);
+    const tasks: MergeTask[] = order.map((i) => ({
+      file: partFile(i), firstRow: ranges[i].firstRow, endRow: ranges[i].endRow, runs: partRuns[i],
       weightedFile: fuse === null ? null : path.join(fuse.dir, partFileName(i)),
     }));
-    const merged = await runMap('merge', () => ({ nCols, scale, bufferRecords, disjoint: chunks.length === 1, weigh: weighSetup }), tasks, exec.workers);
+    const run = await runMap('merge', () => ({ nCols, scale, bufferRecords, disjoint: chunks.length === 1, weigh: weighSetup }), tasks, exec.workers);
+    const merged = new Array<MergeResult>(ranges.length);
+    for (const [j, i] of order.entries()) merged[i] = run.results[j];
     // sums of integers (scaled weights) are exact, so adding the parts' column sums in any order gives the same bits
-    for (const [i, m] of merged.results.entries()) {
+    for (const [i, m] of merged.entries()) {
       rowSums.set(m.rowSums, ranges[i].firstRow);
       rowNnz.set(m.rowNnz, ranges[i].firstRow);
       for (let c = 0; c < nCols; c++) colSums[c] += m.colSums[c];
       sumAll += m.total;
     }
-    entries = merged.results.map((m) => m.entries);
-    checksums = { counts: merged.results.map((m) => m.countsChecksum), weighted: null };
+    entries = merged.map((m) => m.entries);
+    checksums = { counts: merged.map((m) => m.countsChecksum), weighted: null };
     if (earlyMarginals !== null) {
       const final = scaledMarginals(rowSums.slice(), colSums.slice(), rowNnz, scale);
       if (!sameMarginals(final, earlyMarginals)) throw new Error('the count tasks\' sums differ from the merged counts\' (a bug)');
-      weighted = merged.results.map((m) => m.weightedEntries);
-      checksums.weighted = merged.results.map((m) => m.weightedChecksum!);
+      weighted = merged.map((m) => m.weightedEntries);
+      checksums.weighted = merged.map((m) => m.weightedChecksum!);
     }
   } else {
     // too wide for a dense scratch row: a heap over each part's runs

@@ -21,6 +21,8 @@ export interface RowsSetup {
   /** The shared gathering buffer: the group's occurrences (gathered unless the group is a lone row). */
   gathered: ChunkIds;
   group: RowGroup;
+  /** Where the group's occurrences lie in the buffer (groupLayout); null for a lone row. */
+  layout: Int32Array | null;
 }
 
 export interface RowsTask {
@@ -167,15 +169,14 @@ export class RowsMapper {
   }
 
   /**
-   * Calls `add(from, to)` with the gathered occurrences of row r, in corpus order: a range of the shared buffer,
-   * or, for a lone row, each piece gathered in turn.
+   * Calls `add(from, to)` with the gathered occurrences of row r, in corpus order: a range of the shared buffer
+   * per slice, or, for a lone row, each piece gathered in turn.
    */
   private occurrencesOf(r: number, add: (from: number, to: number) => void): void {
-    const { chunk, contexts, gathered, group } = this.setup;
-    const { rowStart } = chunk;
-    if (group.fits) {
-      const base = rowStart[group.first];
-      add(rowStart[r] - base, rowStart[r + 1] - base);
+    const { chunk, contexts, gathered, group, layout } = this.setup;
+    if (layout !== null) {
+      const span = group.end - group.first;
+      for (let at = r - group.first; at < layout.length; at += span + 1) add(layout[at], layout[at + 1]);
       return;
     }
     for (let at = chunk.ownStart, document = chunk.firstDocument; at < chunk.ownEnd;) {

@@ -9,6 +9,11 @@ if (port === null) throw new Error('src/exec/worker.ts must run in a worker thre
 
 const PROGRESS_EVERY_BYTES = 1 << 22;
 
+// The count stage's merge (and with it the Arrow writer) is loaded now, while the thread waits for its first
+// task, rather than when the merge starts, where every thread would load it at once on the critical path (a
+// failure to load shows there).
+void import('../count/merge-map.js').catch(() => {});
+
 let mapper: Awaited<ReturnType<typeof createMapper>> | null = null;
 let pending = 0;
 const send = (m: FromWorker, transfer: ArrayBuffer[] = []): void => port.postMessage(m, transfer);
