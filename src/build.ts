@@ -21,9 +21,9 @@ import { FORMAT_VERSION, readManifest, type FileRecord, type InputFingerprint, t
 import { silentProgress, type Progress } from './progress.js';
 import { canonicalJson } from './config/index.js';
 import { TOOL_VERSION } from './version.js';
-import { runVectorsStage, type VectorsRecord } from './reduce/stage.js';
+import type { VectorsRecord } from './reduce/stage.js';
 import { VECTORS_FILE } from './reduce/vectors-file.js';
-import { runNeighborsStage, type NeighborsRecord } from './query/table-stage.js';
+import type { NeighborsRecord } from './query/table-stage.js';
 import { NEIGHBORS_FILE } from './query/neighbors-file.js';
 import pLimit from 'p-limit';
 
@@ -309,14 +309,15 @@ async function buildAndPublish(
     name: 'vectors',
     key: vectorsKey,
     publish: [VECTORS_FILE],
-    run: (dir) => runVectorsStage(cfg.vectors, { outDir: dir, parts: weightedParts, nRows: vocab.terms.length, nCols, terms: vocab.terms, memoryMiB: cfg.memoryMiB }, progress),
+    // the optional stages' modules are loaded only by builds that ask for them
+    run: async (dir) => (await import('./reduce/stage.js')).runVectorsStage(cfg.vectors, { outDir: dir, parts: weightedParts, nRows: vocab.terms.length, nCols, terms: vocab.terms, memoryMiB: cfg.memoryMiB }, progress),
     counts: (s) => ({ rows: s.rows, dimensions: s.dimensions, passes: s.passes }),
   });
   const neighborsStage = !cfg.neighbors.enabled ? null : await stages.run<NeighborsRecord>({
     name: 'neighbors',
     key: stageKey(cfg.neighbors.source === 'vectors' ? vectorsKey : weightKey, cfg.neighbors),
     publish: [NEIGHBORS_FILE],
-    run: (dir) => runNeighborsStage(cfg.neighbors, {
+    run: async (dir) => (await import('./query/table-stage.js')).runNeighborsStage(cfg.neighbors, {
       outDir: dir, terms: vocab.terms, workers: exec.workers,
       rows: { dir: weightStage.dir, parts: weightedParts, nRows: vocab.terms.length, nCols },
       vectorsFile: vectorsStage ? path.join(vectorsStage.dir, VECTORS_FILE) : undefined,

@@ -3,7 +3,7 @@ import path from 'node:path';
 import type { Writable } from 'node:stream';
 import type { Command } from 'commander';
 import { KindredError } from '../errors.js';
-import { exportTable, type ExportFormat, type ExportTable } from '../query/export.js';
+import type { ExportFormat, ExportTable } from '../query/export.js';
 import { temporarySibling, wrapWriteError } from '../store/atomic.js';
 import { runAction } from './run.js';
 
@@ -63,6 +63,7 @@ export function registerExport(program: Command): void {
         const filtered = opts.term.length > 0 || opts.termsFile !== undefined;
         const settings = { table: table as ExportTable, format: opts.format as ExportFormat, minScore, terms: filtered ? terms : undefined, dryRun: opts.dryRun };
 
+        const { exportTable } = await import('../query/export.js');
         let summary;
         if (opts.out && !opts.dryRun) {
           const target = path.resolve(opts.out);

@@ -1,6 +1,4 @@
 import type { Command } from 'commander';
-import { readManifest } from '../store/manifest.js';
-import { describeBuild } from '../query/describe.js';
 import { runAction } from './run.js';
 
 export function registerInspect(program: Command): void {
@@ -11,6 +9,8 @@ export function registerInspect(program: Command): void {
     .option('--json', 'print the manifest as JSON')
     .action(
       runAction(async (dir: string, opts: { json?: boolean }) => {
+        const { readManifest } = await import('../store/manifest.js');
+        const { describeBuild } = await import('../query/describe.js');
         const manifest = readManifest(dir);
         process.stdout.write(opts.json ? JSON.stringify(manifest, null, 2) + '\n' : describeBuild(dir, manifest));
       }),

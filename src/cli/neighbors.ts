@@ -1,7 +1,6 @@
 import type { Command } from 'commander';
 import { KindredError } from '../errors.js';
 import { getMeasure, MEASURE_NAMES } from '../measures/index.js';
-import { findNeighbors, loadBuild } from '../query/neighbors.js';
 import { runAction } from './run.js';
 
 function positiveInt(value: string): number {
@@ -23,6 +22,7 @@ export function registerNeighbors(program: Command): void {
       runAction(async (dir: string, term: string, opts: { measure: string; k: string; json?: boolean }) => {
         getMeasure(opts.measure);
         const k = positiveInt(opts.k);
+        const { findNeighbors, loadBuild } = await import('../query/neighbors.js');
         const build = loadBuild(dir);
         const result = findNeighbors(build, term, opts.measure, k);
         if (opts.json) {

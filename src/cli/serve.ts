@@ -1,6 +1,5 @@
 import type { Command } from 'commander';
 import { KindredError } from '../errors.js';
-import { startService } from '../query/service.js';
 import { runAction } from './run.js';
 
 function portNumber(value: string): number {
@@ -25,6 +24,7 @@ export function registerServe(program: Command): void {
     .action(
       runAction(async (dir: string, opts: { port: string; host: string }) => {
         const port = portNumber(opts.port);
+        const { startService } = await import('../query/service.js');
         const service = await startService(dir, {
           port,
           host: opts.host,

@@ -1,6 +1,5 @@
 import type { Command } from 'commander';
 import { KindredError } from '../errors.js';
-import { verifyBuild } from '../store/verify.js';
 import { runAction } from './run.js';
 
 export function registerVerify(program: Command): void {
@@ -11,6 +10,7 @@ export function registerVerify(program: Command): void {
     .option('--json', 'print the report as JSON')
     .action(
       runAction(async (dir: string, opts: { json?: boolean }) => {
+        const { verifyBuild } = await import('../store/verify.js');
         const report = await verifyBuild(dir);
         if (opts.json) {
           process.stdout.write(JSON.stringify(report, null, 2) + '\n');

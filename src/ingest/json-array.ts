@@ -2,8 +2,7 @@
  * Streaming reader for a file holding one top-level JSON array: stream-json's tokenizer and its
  * streamArray assembler are driven chunk by chunk, so only one element is held in memory at a time.
  */
-import { jsonParser, type Token } from 'stream-json/core/parser.js';
-import { streamArray } from 'stream-json/core/streamers/stream-array.js';
+import type { Token } from 'stream-json/core/parser.js';
 import { readContentBytes, oneLine } from './bytes.js';
 import { Utf8StreamDecoder } from './utf8.js';
 
@@ -31,12 +30,28 @@ function valuesOf(out: unknown): readonly unknown[] {
   return [out];
 }
 
+/**
+ * stream-json, loaded on first use: it takes longer to load (some 60 ms) than most inputs, which are not JSON
+ * arrays, take to read, and every counting thread would load it too.
+ */
+let streamJson: Promise<[typeof import('stream-json/core/parser.js'), typeof import('stream-json/core/streamers/stream-array.js')]> | null = null;
+
 /** Incremental parser: feed text, collect the array elements completed by it. */
 class ArrayElementParser {
-  private readonly parse = jsonParser({ packValues: true, streamValues: false });
-  private readonly elements = streamArray();
+  private readonly parse: ReturnType<typeof import('stream-json/core/parser.js').jsonParser>;
+  private readonly elements: ReturnType<typeof import('stream-json/core/streamers/stream-array.js').streamArray>;
   /** Set once a non-whitespace character has been fed: an all-blank file is an empty input, not an error. */
   sawContent = false;
+
+  private constructor([parser, streamers]: Awaited<NonNullable<typeof streamJson>>) {
+    this.parse = parser.jsonParser({ packValues: true, streamValues: false });
+    this.elements = streamers.streamArray();
+  }
+
+  static async create(): Promise<ArrayElementParser> {
+    streamJson ??= Promise.all([import('stream-json/core/parser.js'), import('stream-json/core/streamers/stream-array.js')]);
+    return new ArrayElementParser(await streamJson);
+  }
 
   feed(text: string, out: ArrayElement[]): void {
     if (!this.sawContent) {
@@ -72,7 +87,7 @@ export async function* readArrayElements(
   onDiskBytes: (n: number) => void,
   decoder: Utf8StreamDecoder,
 ): AsyncGenerator<ArrayElement> {
-  const parser = new ArrayElementParser();
+  const parser = await ArrayElementParser.create();
   const out: ArrayElement[] = [];
   for await (const chunk of readContentBytes(file, onDiskBytes)) {
     out.length = 0;
@@ -90,7 +105,7 @@ export async function* readArrayElements(
  * parser stops. Returns null if the error does not reproduce (the file changed meanwhile).
  */
 export async function locateJsonError(file: string): Promise<{ line: number; reason: string } | null> {
-  const parser = new ArrayElementParser();
+  const parser = await ArrayElementParser.create();
   const decoder = new Utf8StreamDecoder();
   const sink: ArrayElement[] = [];
   let line = 1;
