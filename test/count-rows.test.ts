@@ -216,11 +216,17 @@ describe('chunked row counting equals counting by definition', () => {
       const { chunk } = await withThreadPool(() => loadChunk(streams, lengths, 50, 170, 4, new ChunkMemory(120, 4, N_TERMS, wide), 0, 2), 2);
       const stream = docs.flatMap((d) => [...d, DOCUMENT_END]);
       expect(total).toBe(stream.length);
-      // the tokens either side that windows reach, then sentinels; narrow ids code −1 and DOCUMENT_END as 0xFFFE, 0xFFFF
+      // the tokens either side that windows reach, between as many sentinels as a window reaches; narrow ids code
+      // −1 and DOCUMENT_END as 0xFFFE, 0xFFFF
       const code = (id: number): number => (wide || id >= 0 ? id : id === DOCUMENT_END ? 0xffff : 0xfffe);
-      expect([...chunk.ids.subarray(1, chunk.ids.length - 1)]).toEqual(stream.slice(46, 174).map(code));
-      expect(chunk.ids[0]).toBe(code(DOCUMENT_END));
-      expect(chunk.ids[chunk.ids.length - 1]).toBe(code(DOCUMENT_END));
+      const ends = [DOCUMENT_END, DOCUMENT_END, DOCUMENT_END, DOCUMENT_END];
+      expect([...chunk.ids]).toEqual([...ends, ...stream.slice(46, 174), ...ends].map(code));
+      expect(stream.slice(chunk.ownStart - 4 + 46, chunk.ownEnd - 4 + 46)).toEqual(stream.slice(50, 170));
+      // at the corpus's ends too: no window reads past the array
+      const last = await withThreadPool(() => loadChunk(streams, lengths, total - 30, total, 4, new ChunkMemory(30, 4, N_TERMS, wide), 0, 2), 2);
+      expect([...last.chunk.ids]).toEqual([...ends, ...stream.slice(total - 34), ...ends].map(code));
+      const first = await withThreadPool(() => loadChunk(streams, lengths, 0, 30, 4, new ChunkMemory(30, 4, N_TERMS, wide), 0, 2), 2);
+      expect([...first.chunk.ids]).toEqual([...ends, ...stream.slice(0, 34), ...ends].map(code));
       const own = stream.slice(50, 170);
       for (let t = 0; t < N_TERMS; t++) expect(chunk.rowStart[t + 1] - chunk.rowStart[t]).toBe(own.filter((id) => id === t).length);
       expect(chunk.documentEnds).toBe(own.filter((id) => id === DOCUMENT_END).length);

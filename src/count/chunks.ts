@@ -43,7 +43,10 @@ export function narrowIds(nRows: number): boolean {
 
 /** A loaded chunk, in shared memory (the typed arrays' buffers are SharedArrayBuffers). */
 export interface Chunk {
-  /** Final ids of the stream entries [lo, hi): the chunk's own [from, to) and the margins, document-end sentinels at both ends. */
+  /**
+   * Final ids of the stream entries [lo, hi): the chunk's own [from, to) and the margins, with document-end
+   * sentinels at both ends, as many as a window reaches (at least one), so that no window reads past the array.
+   */
   ids: ChunkIds;
   /** Index into ids of the chunk's first own token and one past its last. */
   ownStart: number;
@@ -56,11 +59,13 @@ export interface Chunk {
   firstDocument: number;
 }
 
-/** Where a chunk's entries come from: stream entries [lo, hi) go to ids[1 ..]. */
+/** Where a chunk's entries come from: stream entries [lo, hi) go to ids[pad ..]. */
 export interface ChunkSource {
   streams: CorpusStreams;
   lengths: number[];
   lo: number;
+  /** Sentinels at each end of ids. */
+  pad: number;
   ids: ChunkIds;
   ownStart: number;
   ownEnd: number;
@@ -113,7 +118,7 @@ export class ChunkMemory {
    */
   constructor(maxOwn: number, margin: number, readonly nRows: number, wide = false, gatherBytes = 1 << 20) {
     this.narrow = !wide && narrowIds(nRows);
-    this.ids = new SharedArrayBuffer((this.narrow ? 2 : 4) * (maxOwn + 2 * margin + 2));
+    this.ids = new SharedArrayBuffer((this.narrow ? 2 : 4) * (maxOwn + 2 * margin + 2 * sentinels(margin)));
     this.rowStart = new SharedArrayBuffer(4 * (nRows + 1));
     this.gather = new SharedArrayBuffer(4 * Math.ceil(gatherBytes / 4));
   }
@@ -142,16 +147,23 @@ export function chunkSource(streams: CorpusStreams, lengths: number[], from: num
   const lo = Math.max(0, from - margin);
   const hi = Math.min(total, to + margin);
   const nRows = memory.nRows;
-  const ids = memory.idsOf(hi - lo + 2);
-  ids[0] = documentEndIn(ids);
-  ids[hi - lo + 1] = documentEndIn(ids);
-  return { streams, lengths, lo, ids, ownStart: 1 + from - lo, ownEnd: 1 + to - lo, nRows };
+  const pad = sentinels(margin);
+  const ids = memory.idsOf(hi - lo + 2 * pad);
+  ids.fill(documentEndIn(ids), 0, pad);
+  ids.fill(documentEndIn(ids), hi - lo + pad);
+  return { streams, lengths, lo, pad, ids, ownStart: pad + from - lo, ownEnd: pad + to - lo, nRows };
+}
+
+/** Document-end sentinels at each end of a chunk whose windows reach `margin` entries either side. */
+function sentinels(margin: number): number {
+  return Math.max(1, margin);
 }
 
 /** The chunk's entries between its sentinels cut into `n` slices. */
 export function planSlices(source: ChunkSource, n: number): ChunkSlice[] {
-  const len = source.ids.length - 2;
-  return Array.from({ length: n }, (_, i) => ({ start: 1 + Math.floor((len * i) / n), end: 1 + Math.floor((len * (i + 1)) / n) }));
+  const { pad } = source;
+  const len = source.ids.length - 2 * pad;
+  return Array.from({ length: n }, (_, i) => ({ start: pad + Math.floor((len * i) / n), end: pad + Math.floor((len * (i + 1)) / n) }));
 }
 
 /** Stream entries read at a time into the int32 staging buffer. */
@@ -160,8 +172,8 @@ const STAGE_ENTRIES = 1 << 16;
 /** Reads a slice's stream entries into the chunk as final ids; counts its own tokens by term and its document ends. */
 export function fillSlice(source: ChunkSource, slice: ChunkSlice): SliceCounts {
   const { streams, lengths, ids } = source;
-  let from = source.lo + slice.start - 1;
-  const to = source.lo + slice.end - 1;
+  let from = source.lo + slice.start - source.pad;
+  const to = source.lo + slice.end - source.pad;
   let at = slice.start;
   let fileStart = 0;
   // the streams' int32 ids are read through one staging buffer and written to the chunk as final ids (coded

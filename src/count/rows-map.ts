@@ -49,6 +49,20 @@ export interface RowsPartial {
   colSums: Float64Array;
 }
 
+/**
+ * Adds a row's cells (columns cols, values sums[col]) to the column sums; returns the row's sum. A function of
+ * its own, so that the code around this loop, compiled while the loop runs, is not compiled before it ran.
+ */
+function addToColumns(cols: Uint32Array, sums: Float64Array, colSums: Float64Array): number {
+  let rowSum = 0;
+  for (let i = 0; i < cols.length; i++) {
+    const c = cols[i];
+    rowSum += sums[c];
+    colSums[c] += sums[c];
+  }
+  return rowSum;
+}
+
 /** A task's run file and the sums of its rows; every mapper's column sums. */
 class RowOutput {
   private readonly run: RunWriter;
@@ -67,14 +81,7 @@ class RowOutput {
 
   /** Row r's cells: columns cols (ascending), values sums[col]. */
   appendRow(r: number, cols: Uint32Array, sums: Float64Array): void {
-    const { colSums } = this;
-    let rowSum = 0;
-    for (let i = 0; i < cols.length; i++) {
-      const c = cols[i];
-      rowSum += sums[c];
-      colSums[c] += sums[c];
-    }
-    this.rowSums[r - this.task.firstRow] = rowSum;
+    this.rowSums[r - this.task.firstRow] = addToColumns(cols, sums, this.colSums);
     this.rowNnz[r - this.task.firstRow] = cols.length;
     this.run.appendRow(r, cols, sums);
   }
