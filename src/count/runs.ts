@@ -6,6 +6,20 @@ import { giveBuffer, takeBuffer } from '../store/buffer-pool.js';
 const RECORD = 16;
 const BUFFER_RECORDS = 1 << 16;
 
+/**
+ * Writes n records of row `row` at record `at` of a buffer: columns cols[from ..], values sums[col]. A function of
+ * its own, so that the code around this loop, compiled while the loop runs, is not compiled before it ran.
+ */
+function writeRecords(u32: Uint32Array, f64: Float64Array, at: number, row: number, cols: Uint32Array, from: number, n: number, sums: Float64Array): void {
+  for (let k = 0; k < n; k++) {
+    const c = cols[from + k];
+    const i = at + k;
+    u32[4 * i] = row;
+    u32[4 * i + 1] = c;
+    f64[2 * i + 1] = sums[c];
+  }
+}
+
 export class RunWriter {
   private readonly fd: number;
   private readonly buf = takeBuffer(RECORD * BUFFER_RECORDS);
@@ -33,20 +47,13 @@ export class RunWriter {
 
   /** Appends row's entries: columns cols (ascending), values sums[col]. */
   appendRow(row: number, cols: Uint32Array, sums: Float64Array): void {
-    const { u32, f64 } = this;
-    let i = this.fill;
-    for (let j = 0; j < cols.length; j++) {
-      const c = cols[j];
-      u32[4 * i] = row;
-      u32[4 * i + 1] = c;
-      f64[2 * i + 1] = sums[c];
-      if (++i === BUFFER_RECORDS) {
-        this.fill = i;
-        this.flush();
-        i = 0;
-      }
+    for (let from = 0; from < cols.length;) {
+      const n = Math.min(cols.length - from, BUFFER_RECORDS - this.fill);
+      writeRecords(this.u32, this.f64, this.fill, row, cols, from, n, sums);
+      this.fill += n;
+      from += n;
+      if (this.fill === BUFFER_RECORDS) this.flush();
     }
-    this.fill = i;
     this.records += cols.length;
   }
 
