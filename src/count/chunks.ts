@@ -193,11 +193,7 @@ export function fillSlice(source: ChunkSource, slice: ChunkSlice): SliceCounts {
           for (let done = 0; done < n;) {
             const step = Math.min(n - done, STAGE_ENTRIES);
             readFully(fd, file, stage, 4 * step, 4 * (from - fileStart + done));
-            for (let i = 0; i < step; i++) {
-              const id = staged[i];
-              const final = id >= 0 ? toFinal[id] : id;
-              ids[at + done + i] = final >= 0 || !narrow ? final : final === DOCUMENT_END ? NARROW_DOCUMENT_END : NARROW_OUT;
-            }
+            mapIds(staged, step, toFinal, ids, at + done, narrow);
             done += step;
           }
         } finally {
@@ -211,18 +207,34 @@ export function fillSlice(source: ChunkSource, slice: ChunkSlice): SliceCounts {
   } finally {
     giveBuffer(stage);
   }
-  const { nRows } = source;
+  const counts = new Int32Array(source.nRows);
+  const ends = countIds(ids, Math.max(slice.start, source.ownStart), Math.min(slice.end, source.ownEnd), counts);
+  return { counts, ends };
+}
+
+// The two loops of fillSlice are functions of their own, so that the code around them, compiled while they
+// run, is not compiled before it ran (which would send it back to the interpreter when it first does).
+
+/** Writes n stream ids as final ids (coded for narrow chunks) at ids[at ..]. */
+function mapIds(staged: Int32Array, n: number, toFinal: Int32Array, ids: ChunkIds, at: number, narrow: boolean): void {
+  for (let i = 0; i < n; i++) {
+    const id = staged[i];
+    const final = id >= 0 ? toFinal[id] : id;
+    ids[at + i] = final >= 0 || !narrow ? final : final === DOCUMENT_END ? NARROW_DOCUMENT_END : NARROW_OUT;
+  }
+}
+
+/** Counts ids[start, end) by term into counts (as many terms as it has entries); returns the document ends among them. */
+function countIds(ids: ChunkIds, start: number, end: number, counts: Int32Array): number {
+  const nRows = counts.length;
   const documentEnd = documentEndIn(ids);
-  const counts = new Int32Array(nRows);
   let ends = 0;
-  const start = Math.max(slice.start, source.ownStart);
-  const end = Math.min(slice.end, source.ownEnd);
   for (let p = start; p < end; p++) {
     const id = ids[p];
     if (id >>> 0 < nRows) counts[id]++;
     else if (id === documentEnd) ends++;
   }
-  return { counts, ends };
+  return ends;
 }
 
 /** Reads exactly `length` bytes at `position` of an open token stream. */

@@ -40,12 +40,17 @@ export interface VocabularyPartial {
   tokens: number;
 }
 
+/** Terms a mapper's tables hold before they first grow. */
+const INITIAL_TERMS = 256;
+
 /** Term counts and document frequencies by term bytes. */
 export class VocabularyMapper {
-  readonly table = new TermTable(1 << 14);
-  private counts = new Float64Array(1 << 14);
-  private docFreqs = new Uint32Array(1 << 14);
-  private lastDoc = new Int32Array(1 << 14).fill(-1);
+  // small at first: the tables grow while the first documents are read, before the hot loop is compiled, so
+  // the compiled loop knows the growing paths and is not thrown back to the interpreter when they run later
+  readonly table = new TermTable(INITIAL_TERMS);
+  private counts = new Float64Array(INITIAL_TERMS);
+  private docFreqs = new Uint32Array(INITIAL_TERMS);
+  private lastDoc = new Int32Array(INITIAL_TERMS).fill(-1);
   private doc = -1;
   tokens = 0;
   private readonly sink: DocumentSink;

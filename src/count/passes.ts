@@ -1,6 +1,6 @@
 import { promises as fsp, rmSync } from 'node:fs';
 import path from 'node:path';
-import type { ContextsConfig, KindredConfig, Normalization, WeightingConfig } from '../config/types.js';
+import type { ContextsConfig, KindredConfig, Normalization, VocabularyConfig, WeightingConfig } from '../config/types.js';
 import { planSplits } from '../ingest/split.js';
 import type { IngestStats } from '../ingest/types.js';
 import { runMap, type MapRun } from '../exec/pool.js';
@@ -18,6 +18,7 @@ import {
   ChunkMemory, chunkOf, chunkSource, narrowIds, planChunks, planSlices, sharedInt32, streamLengths, type Chunk, type ChunkSlice, type CorpusStreams, type SliceCounts,
 } from './chunks.js';
 import type { RowsTask } from './rows-map.js';
+import type { VocabularyPartial } from './map.js';
 import { gatherTasks, gatherWidth, groupLayout, planGroups, type RowGroup } from './gather.js';
 
 /** How the counting passes run: where relative config paths start, and how many worker threads to use. */
@@ -70,55 +71,15 @@ export async function countTerms(
   const run = await vocabularyPass('vocabulary', files, cfg, exec, progress, totalBytes, streamDir);
   for (const r of run.results) addStats(stats, r.stats);
 
-  // Merge the partial counts by term bytes; the result does not depend on which thread read which split.
-  const table = new TermTable(run.partials.reduce((s, p) => Math.max(s, p.counts.length), 1024));
-  let counts = new Float64Array(table.starts.length);
-  let docFreqs = new Uint32Array(table.starts.length);
-  let tokens = 0;
-  const mergedIds = run.partials.map((p) => new Int32Array(p.counts.length));
-  for (const [m, p] of run.partials.entries()) {
-    tokens += p.tokens;
-    const { arena, offsets } = p.terms;
-    for (let i = 0; i < p.counts.length; i++) {
-      const id = table.intern(arena, offsets[i], offsets[i + 1]);
-      mergedIds[m][i] = id;
-      if (id >= counts.length) {
-        const c = new Float64Array(counts.length * 2);
-        c.set(counts);
-        counts = c;
-        const d = new Uint32Array(docFreqs.length * 2);
-        d.set(docFreqs);
-        docFreqs = d;
-      }
-      counts[id] += p.counts[i];
-      docFreqs[id] += p.docFreqs[i];
-    }
-  }
-
-  // Keep terms by count and document frequency; ids by descending count, ties by term in code point order
-  // (byte order of UTF-8 is code point order).
-  const v = cfg.vocabulary;
-  const kept: number[] = [];
-  for (let id = 0; id < table.size; id++) if (counts[id] >= v.minCount && docFreqs[id] >= v.minDocFreq) kept.push(id);
-  const { arena, starts } = table;
-  kept.sort((a, b) => counts[b] - counts[a] || compareBytes(arena, starts[a], starts[a + 1], arena, starts[b], starts[b + 1]));
-  const size = v.maxSize > 0 ? Math.min(v.maxSize, kept.length) : kept.length;
-  const decoder = new TextDecoder();
-  const vocab: Vocabulary = { terms: new Array<string>(size), counts: new Float64Array(size), docFreqs: new Uint32Array(size) };
-  for (let i = 0; i < size; i++) {
-    const id = kept[i];
-    vocab.terms[i] = decoder.decode(arena.subarray(starts[id], starts[id + 1]));
-    vocab.counts[i] = counts[id];
-    vocab.docFreqs[i] = docFreqs[id];
-  }
+  // the loops over terms are functions of their own (here and in countPairs): an async function that holds
+  // them is compiled whole, again at each of its loops, by the optimizing compiler, which costs more CPU
+  // time than the loops themselves on a build of this size
+  const merged = mergeTermCounts(run.partials);
+  const { table, tokens } = merged;
+  const { vocab, finalOfMerged } = keptVocabulary(merged, cfg.vocabulary);
+  const size = vocab.terms.length;
   // each mapper's term ids to the final ids (-1: not in the vocabulary), through the merged table's ids
-  const finalOfMerged = new Int32Array(table.size).fill(-1);
-  for (let i = 0; i < size; i++) finalOfMerged[kept[i]] = i;
-  const finalIds = mergedIds.map((ids) => {
-    const shared = sharedInt32(ids.length);
-    for (let i = 0; i < ids.length; i++) shared[i] = finalOfMerged[ids[i]];
-    return shared;
-  });
+  const finalIds = merged.mergedIds.map((ids) => mapShared(ids, finalOfMerged));
   progress.end(`${stats.documents} documents, ${tokens} tokens, ${table.size} distinct terms, ${size} kept (${run.threads} thread${run.threads > 1 ? 's' : ''})`);
   return {
     vocab,
@@ -138,6 +99,78 @@ function encodeTerms(terms: string[]): TermBytes {
   return { arena, offsets };
 }
 
+/** The threads' term counts merged by term bytes; the result does not depend on which thread read which split. */
+function mergeTermCounts(partials: VocabularyPartial[]): { table: TermTable; counts: Float64Array; docFreqs: Uint32Array; mergedIds: Int32Array[]; tokens: number } {
+  const table = new TermTable(partials.reduce((s, p) => Math.max(s, p.counts.length), 1024));
+  let counts = new Float64Array(table.starts.length);
+  let docFreqs = new Uint32Array(table.starts.length);
+  let tokens = 0;
+  const mergedIds = partials.map((p) => new Int32Array(p.counts.length));
+  for (const [m, p] of partials.entries()) {
+    tokens += p.tokens;
+    const { arena, offsets } = p.terms;
+    for (let i = 0; i < p.counts.length; i++) {
+      const id = table.intern(arena, offsets[i], offsets[i + 1]);
+      mergedIds[m][i] = id;
+      if (id >= counts.length) {
+        const c = new Float64Array(counts.length * 2);
+        c.set(counts);
+        counts = c;
+        const d = new Uint32Array(docFreqs.length * 2);
+        d.set(docFreqs);
+        docFreqs = d;
+      }
+      counts[id] += p.counts[i];
+      docFreqs[id] += p.docFreqs[i];
+    }
+  }
+  return { table, counts, docFreqs, mergedIds, tokens };
+}
+
+/**
+ * The terms kept by count and document frequency; ids by descending count, ties by term in code point order
+ * (byte order of UTF-8 is code point order); and each merged id's final id (-1: not kept).
+ */
+function keptVocabulary(
+  { table, counts, docFreqs }: { table: TermTable; counts: Float64Array; docFreqs: Uint32Array }, v: VocabularyConfig,
+): { vocab: Vocabulary; finalOfMerged: Int32Array } {
+  const kept: number[] = [];
+  for (let id = 0; id < table.size; id++) if (counts[id] >= v.minCount && docFreqs[id] >= v.minDocFreq) kept.push(id);
+  const { arena, starts } = table;
+  kept.sort((a, b) => counts[b] - counts[a] || compareBytes(arena, starts[a], starts[a + 1], arena, starts[b], starts[b + 1]));
+  const size = v.maxSize > 0 ? Math.min(v.maxSize, kept.length) : kept.length;
+  const decoder = new TextDecoder();
+  const vocab: Vocabulary = { terms: new Array<string>(size), counts: new Float64Array(size), docFreqs: new Uint32Array(size) };
+  for (let i = 0; i < size; i++) {
+    const id = kept[i];
+    vocab.terms[i] = decoder.decode(arena.subarray(starts[id], starts[id + 1]));
+    vocab.counts[i] = counts[id];
+    vocab.docFreqs[i] = docFreqs[id];
+  }
+  const finalOfMerged = new Int32Array(table.size).fill(-1);
+  for (let i = 0; i < size; i++) finalOfMerged[kept[i]] = i;
+  return { vocab, finalOfMerged };
+}
+
+/** ids mapped through `to`, in shared memory. */
+function mapShared(ids: Int32Array, to: Int32Array): Int32Array {
+  const shared = sharedInt32(ids.length);
+  for (let i = 0; i < ids.length; i++) shared[i] = to[ids[i]];
+  return shared;
+}
+
+/** Each mapper's term ids to a vocabulary's (-1: not in it), by their bytes, in shared memory. */
+function findShared(table: TermTable, { arena, offsets }: TermBytes): Int32Array {
+  const ids = sharedInt32(offsets.length - 1);
+  for (let i = 0; i < offsets.length - 1; i++) ids[i] = table.find(arena, offsets[i], offsets[i + 1]);
+  return ids;
+}
+
+/** target[at + i] += source[i] for every i. */
+function addAt(target: Float64Array | Uint32Array, at: number, source: Float64Array | Uint32Array): void {
+  for (let i = 0; i < source.length; i++) target[at + i] += source[i];
+}
+
 /**
  * Token streams for a vocabulary read from an earlier build's file (the count stage rerun without the
  * vocabulary pass): the input is read and tokenized again, each thread's term ids mapped to the
@@ -148,11 +181,7 @@ export async function tokenStreams(
 ): Promise<CorpusStreams> {
   const run = await vocabularyPass('tokens', files, cfg, exec, progress, totalBytes, streamDir);
   const table = TermTable.fromTermBytes(encodeTerms(vocab.terms));
-  const finalIds = run.partials.map(({ terms: { arena, offsets } }) => {
-    const ids = sharedInt32(offsets.length - 1);
-    for (let i = 0; i < offsets.length - 1; i++) ids[i] = table.find(arena, offsets[i], offsets[i + 1]);
-    return ids;
-  });
+  const finalIds = run.partials.map((p) => findShared(table, p.terms));
   progress.end(`${run.results.length} token streams (${run.threads} thread${run.threads > 1 ? 's' : ''})`);
   return { refs: run.results.map((r) => r.stream!), finalIds };
 }
@@ -308,12 +337,10 @@ export async function countPairs(
       threads = Math.max(threads, run.threads);
       for (const [j, r] of run.results.entries()) {
         pairs += r.pairs;
-        for (let i = 0; i < r.rowSums.length; i++) {
-          early.rowSums[tasks[j].firstRow + i] += r.rowSums[i];
-          early.rowNnz[tasks[j].firstRow + i] += r.rowNnz[i];
-        }
+        addAt(early.rowSums, tasks[j].firstRow, r.rowSums);
+        addAt(early.rowNnz, tasks[j].firstRow, r.rowNnz);
       }
-      for (const p of run.partials) for (let i = 0; i < nCols; i++) early.colSums[i] += p.colSums[i];
+      for (const p of run.partials) addAt(early.colSums, 0, p.colSums);
       // runs in row order within each part
       const fileOf = new Array<string>(planned.length);
       for (const [j, i] of order.entries()) fileOf[i] = tasks[j].file;
@@ -354,7 +381,7 @@ export async function countPairs(
     for (const [i, m] of merged.entries()) {
       rowSums.set(m.rowSums, ranges[i].firstRow);
       rowNnz.set(m.rowNnz, ranges[i].firstRow);
-      for (let c = 0; c < nCols; c++) colSums[c] += m.colSums[c];
+      addAt(colSums, 0, m.colSums);
       sumAll += m.total;
     }
     entries = merged.map((m) => m.entries);

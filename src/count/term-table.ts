@@ -95,7 +95,10 @@ export class TermTable {
     const id = this.size;
     if (id + 1 >= this.hashes.length) this.growIds();
     if (this.arenaFill + len > this.arena.length) this.growArena(len);
-    this.arena.set(bytes.subarray(start, end), this.arenaFill);
+    // byte by byte: bytes is a Buffer or a plain Uint8Array, whose subarray methods differ, and a call of
+    // either would send the compiled caller back to the interpreter when the other comes
+    const { arena } = this;
+    for (let k = 0; k < len; k++) arena[this.arenaFill + k] = bytes[start + k];
     this.starts[id] = this.arenaFill;
     this.arenaFill += len;
     this.starts[id + 1] = this.arenaFill;
