@@ -39,7 +39,7 @@ export class TermTable {
   size = 0;
 
   constructor(expectedTerms = 1024) {
-    let cap = 1024;
+    let cap = 16;
     while (cap * 0.5 < expectedTerms) cap *= 2;
     this.slots = new Int32Array(cap).fill(EMPTY);
     this.mask = cap - 1;

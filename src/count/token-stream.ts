@@ -12,6 +12,7 @@ import { giveBuffer, takeBuffer } from '../store/buffer-pool.js';
 export const DOCUMENT_END = -2;
 
 const BUFFER_IDS = 1 << 18;
+const FIRST_WRITE_IDS = 1 << 10;
 
 /** Where one split's token stream is, and which thread's term ids it holds. */
 export interface TokenStreamRef {
@@ -25,6 +26,11 @@ export class TokenStreamWriter {
   private readonly bytes = takeBuffer(4 * BUFFER_IDS);
   private readonly ids = new Int32Array(this.bytes.buffer, this.bytes.byteOffset, BUFFER_IDS);
   private fill = 0;
+  /**
+   * Ids held before the next write: small for the first, so that the writing path runs while the tokenizer
+   * that calls push is still interpreted (a path first taken by compiled code sends it back to the interpreter).
+   */
+  private limit = FIRST_WRITE_IDS;
 
   constructor(readonly file: string) {
     try {
@@ -36,12 +42,13 @@ export class TokenStreamWriter {
 
   push(id: number): void {
     this.ids[this.fill++] = id;
-    if (this.fill === BUFFER_IDS) this.flush();
+    if (this.fill === this.limit) this.flush();
   }
 
   private flush(): void {
     writeBytesOrThrow(this.fd, this.bytes, this.fill * 4, this.file);
     this.fill = 0;
+    this.limit = BUFFER_IDS;
   }
 
   close(): void {
