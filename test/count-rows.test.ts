@@ -17,9 +17,9 @@ import os from 'node:os';
 import path from 'node:path';
 import type { ContextsConfig } from '../src/config/types.js';
 import { ChunkMemory, planChunks, streamLengths, type CorpusStreams } from '../src/count/chunks.js';
-import { loadChunk } from '../src/count/passes.js';
-import { gatherTasks, gatherWidth, groupLayout, planGroups } from '../src/count/gather.js';
-import { runMap, withThreadPool } from '../src/exec/pool.js';
+import { gatherGroup, loadChunk } from '../src/count/passes.js';
+import { gatherCapacity, planGroups } from '../src/count/gather.js';
+import { withThreadPool } from '../src/exec/pool.js';
 import { RowsMapper } from '../src/count/rows-map.js';
 import { RunReader } from '../src/count/runs.js';
 import { windowWeights } from '../src/count/cooccur.js';
@@ -140,16 +140,14 @@ async function counted(
     const margin = ctx.type === 'document' ? 0 : ctx.window;
     // one slice per thread (one: in this thread)
     const memory = new ChunkMemory(to - from, margin, N_TERMS, wide, gatherBytes);
-    const { chunk, slices: loadedIn, counted: sliceCounts } = await loadChunk(streams, lengths, from, to, margin, memory, firstDocument, slices);
+    const loaded = await loadChunk(streams, lengths, from, to, margin, memory, firstDocument, slices);
+    const { chunk } = loaded;
     expect(chunk.ids instanceof Int32Array).toBe(wide);
     firstDocument += chunk.documentEnds;
     const gathered = memory.gatheredOf(ctx.type === 'document');
-    const { width } = gatherWidth(ctx);
-    const capacity = Math.floor(gathered.byteLength / (width * gathered.BYTES_PER_ELEMENT));
-    for (const group of planGroups(chunk.rowStart, N_TERMS, capacity)) {
-      const layout = group.fits ? groupLayout(group, sliceCounts) : null;
-      if (layout !== null) await runMap('gather', () => ({ chunk, contexts: ctx, buffer: gathered }), gatherTasks(chunk, loadedIn, sliceCounts, group, layout, width), slices);
-      else lone++;
+    for (const group of planGroups(chunk.rowStart, N_TERMS, gatherCapacity(gathered, ctx))) {
+      const layout = await gatherGroup(loaded, group, ctx, gathered, slices);
+      if (layout === null) lone++;
       const mapper = new RowsMapper({ chunk, contexts: ctx, weights, nCols: ctx.type === 'document' ? 10_000 : N_TERMS, gathered, group, layout });
       for (let first = group.first; first < group.end; first += rowsPerTask) {
         const endRow = Math.min(group.end, first + rowsPerTask);

@@ -18,6 +18,11 @@ export function gatherWidth(contexts: ContextsConfig): { left: number; right: nu
   return { left, right, width: left + right };
 }
 
+/** Occurrences the gathering buffer holds (at least one). */
+export function gatherCapacity(buffer: ChunkIds, contexts: ContextsConfig): number {
+  return Math.max(1, Math.floor(buffer.length / gatherWidth(contexts).width));
+}
+
 /** Consecutive rows [first, end) gathered at once; `fits`: false for a lone row with more occurrences than the buffer holds. */
 export interface RowGroup {
   first: number;

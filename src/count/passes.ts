@@ -2,7 +2,7 @@ import { promises as fsp, rmSync } from 'node:fs';
 import path from 'node:path';
 import type { ContextsConfig, KindredConfig, Normalization, VocabularyConfig, WeightingConfig } from '../config/types.js';
 import { planSplits } from '../ingest/split.js';
-import type { IngestStats } from '../ingest/types.js';
+import { addIngestStats, type IngestStats } from '../ingest/types.js';
 import { runMap, type MapRun } from '../exec/pool.js';
 import type { Progress } from '../progress.js';
 import type { Marginals } from '../weight/types.js';
@@ -15,11 +15,11 @@ import type { MergeResult, MergeTask } from './merge-map.js';
 import { TermTable, compareBytes, type TermBytes } from './term-table.js';
 import type { RowRange } from './partition.js';
 import {
-  ChunkMemory, chunkOf, chunkSource, narrowIds, planChunks, planSlices, sharedInt32, streamLengths, type Chunk, type ChunkSlice, type CorpusStreams, type SliceCounts,
+  ChunkMemory, chunkOf, chunkSource, narrowIds, planChunks, planSlices, sharedInt32, streamLengths, type Chunk, type ChunkIds, type ChunkSlice, type CorpusStreams, type SliceCounts,
 } from './chunks.js';
 import type { RowsTask } from './rows-map.js';
 import type { VocabularyPartial } from './map.js';
-import { gatherTasks, gatherWidth, groupLayout, planGroups, type RowGroup } from './gather.js';
+import { gatherCapacity, gatherTasks, gatherWidth, groupLayout, planGroups, type RowGroup } from './gather.js';
 
 /** How the counting passes run: where relative config paths start, and how many worker threads to use. */
 export interface CountExec {
@@ -41,15 +41,6 @@ function splitBytes(totalBytes: number, workers: number): number {
   return Math.max(1 << 20, Math.ceil(totalBytes / (workers * 4)));
 }
 
-function addStats(into: IngestStats, from: IngestStats): void {
-  into.files += from.files;
-  into.bytes += from.bytes;
-  into.documents += from.documents;
-  into.invalidUtf8Replaced += from.invalidUtf8Replaced;
-  into.badRecordsSkipped += from.badRecordsSkipped;
-  into.binaryFilesSkipped += from.binaryFilesSkipped;
-}
-
 /** Reads and tokenizes the input on the threads: term counts by term bytes, and a token stream per split. */
 async function vocabularyPass(
   stage: string, files: string[], cfg: KindredConfig, exec: CountExec, progress: Progress, totalBytes: number, streamDir: string,
@@ -69,7 +60,7 @@ export async function countTerms(
   streamDir: string,
 ): Promise<TermsResult> {
   const run = await vocabularyPass('vocabulary', files, cfg, exec, progress, totalBytes, streamDir);
-  for (const r of run.results) addStats(stats, r.stats);
+  for (const r of run.results) addIngestStats(stats, r.stats);
 
   // the loops over terms are functions of their own (here and in countPairs): an async function that holds
   // them is compiled whole, again at each of its loops, by the optimizing compiler, which costs more CPU
@@ -233,6 +224,21 @@ export async function loadChunk(
   return { chunk: chunkOf(source, filled.results, memory, firstDocument), slices, counted: filled.results };
 }
 
+/**
+ * Gathers a group's occurrences into the shared buffer, one slice of the chunk per thread (gather.ts); returns
+ * where they lie in it, or null for a lone row, which its count task gathers itself.
+ */
+export async function gatherGroup(loaded: LoadedChunk, group: RowGroup, contexts: ContextsConfig, buffer: ChunkIds, workers: number): Promise<Int32Array | null> {
+  if (!group.fits) return null;
+  const { chunk, slices, counted } = loaded;
+  const layout = groupLayout(group, counted);
+  if (chunk.rowStart[group.end] > chunk.rowStart[group.first]) {
+    const tasks = gatherTasks(chunk, slices, counted, group, layout, gatherWidth(contexts).width);
+    await runMap('gather', () => ({ chunk, contexts, buffer }), tasks, workers);
+  }
+  return layout;
+}
+
 /** Count tasks per thread and chunk: enough that threads finish together, few enough that each is worth a task. */
 const TASKS_PER_WORKER = 4;
 
@@ -304,10 +310,10 @@ export async function countPairs(
   const maxOwn = chunks.reduce((m, k) => Math.max(m, k.to - k.from), 0);
   const memory = new ChunkMemory(maxOwn, margin, nRows, false, gatherBytesFor(cfg.memoryMiB, maxOwn, ctx, nRows));
   const gathered = memory.gatheredOf(ctx.type === 'document');
-  const { width } = gatherWidth(ctx);
-  const capacity = Math.max(1, Math.floor(gathered.byteLength / (width * gathered.BYTES_PER_ELEMENT)));
+  const capacity = gatherCapacity(gathered, ctx);
   for (const [c, { from, to }] of chunks.entries()) {
-    const { chunk, slices, counted } = await loadChunk(streams, lengths, from, to, margin, memory, firstDocument, exec.workers);
+    const loaded = await loadChunk(streams, lengths, from, to, margin, memory, firstDocument, exec.workers);
+    const { chunk } = loaded;
     firstDocument += chunk.documentEnds;
     // streams wholly behind the next chunk's reach are no longer needed
     const keepFrom = c + 1 < chunks.length ? chunks[c + 1].from - margin : total;
@@ -322,10 +328,7 @@ export async function countPairs(
     // then counted in tasks on the threads, the costliest first, so that the threads finish together
     const chunkCost = Math.max(1, chunk.rowStart[nRows]);
     for (const [g, group] of planGroups(chunk.rowStart, nRows, capacity).entries()) {
-      const layout = group.fits ? groupLayout(group, counted) : null;
-      if (layout !== null && chunk.rowStart[group.end] > chunk.rowStart[group.first]) {
-        await runMap('gather', () => ({ chunk, contexts: ctx, buffer: gathered }), gatherTasks(chunk, slices, counted, group, layout, width), exec.workers);
-      }
+      const layout = await gatherGroup(loaded, group, ctx, gathered, exec.workers);
       const planned = planRowTasks(chunk.rowStart, ranges, group, exec.workers);
       const order = planned.map((_, i) => i).sort((a, b) => planned[b].cost - planned[a].cost || a - b);
       const tasks: RowsTask[] = order.map((i) => ({
