@@ -11,6 +11,7 @@ import {
   logFn,
   normalizeRows,
   precomputeContextTerms,
+  weightAndNormalizeInPlace,
   weightBlock,
   weightingSchemes,
 } from '../src/weight/index.js';
@@ -158,6 +159,9 @@ describe.skipIf(!pythonAvailable())('weighting vs numpy/scipy (scripts/reference
     const m = computeMarginals(blocks, c.matrix.nRows, c.matrix.nCols);
     const terms = precomputeContextTerms(m, c.weighting);
     const got = flatten(blocks.map((b) => normalizeRows(weightBlock(b, m, c.weighting, terms), c.normalize)));
+    // the count stage's path: each block weighted and normalized in its own arrays, the same bits
+    const copies = blocks.map((b) => ({ firstRow: b.firstRow, indptr: b.indptr.slice(), cols: b.cols.slice(), values: b.values.slice() }));
+    expect(flatten(copies.map((b) => weightAndNormalizeInPlace(b, m, c.weighting, c.normalize, terms)))).toEqual(got);
     expect(got.rows).toEqual(ref.rows);
     expect(got.cols).toEqual(ref.cols);
     expect(got.values.length).toBe(ref.values.length);

@@ -7,7 +7,7 @@
 import type { Normalization, WeightingConfig } from '../config/types.js';
 import { ShardWriter, type ShardValueType } from '../store/shards.js';
 import type { FileChecksum } from '../store/arrow-sink.js';
-import { weightAndNormalize } from '../weight/index.js';
+import { weightAndNormalizeInPlace } from '../weight/index.js';
 import type { Marginals } from '../weight/types.js';
 import { RunReader, SortedRowSource, mergeRowWise, readRunBatches } from './runs.js';
 
@@ -114,7 +114,8 @@ class WeightedRows {
       values: this.values.subarray(0, this.fill),
     };
     const { weighting, normalize, marginals } = this.setup;
-    this.writer.appendBlock(weightAndNormalize(block, marginals, weighting, normalize));
+    // the block is this writer's own arrays, refilled next: weighted where it lies
+    this.writer.appendBlock(weightAndNormalizeInPlace(block, marginals, weighting, normalize));
     this.rows = 0;
     this.fill = 0;
   }

@@ -30,20 +30,28 @@ export function dropZeros(block: RowBlock): RowBlock {
   let zeros = 0;
   for (let p = 0; p < values.length; p++) if (values[p] === 0) zeros++;
   if (zeros === 0) return block;
+  return dropZerosInPlace({ firstRow: block.firstRow, indptr: indptr.slice(), cols: cols.slice(), values: values.slice() });
+}
+
+/**
+ * dropZeros in place: the block's own arrays compacted (each entry moves only towards the front), returned as views
+ * of them. For blocks whose arrays the caller owns and no longer needs: no array is allocated.
+ */
+export function dropZerosInPlace(block: RowBlock): RowBlock {
+  const { indptr, cols, values } = block;
   const nRows = blockRowCount(block);
-  const outIndptr = new Uint32Array(nRows + 1);
-  const outCols = new Uint32Array(values.length - zeros);
-  const outValues = new Float64Array(values.length - zeros);
-  let q = 0;
-  for (let r = 0; r < nRows; r++) {
-    for (let p = indptr[r]; p < indptr[r + 1]; p++) {
+  let q = indptr[0];
+  for (let r = 0, start = indptr[0]; r < nRows; r++) {
+    const end = indptr[r + 1];
+    for (let p = start; p < end; p++) {
       const v = values[p];
       if (v === 0) continue;
-      outCols[q] = cols[p];
-      outValues[q] = v;
+      cols[q] = cols[p];
+      values[q] = v;
       q++;
     }
-    outIndptr[r + 1] = q;
+    indptr[r + 1] = q;
+    start = end;
   }
-  return { firstRow: block.firstRow, indptr: outIndptr, cols: outCols, values: outValues };
+  return { firstRow: block.firstRow, indptr, cols: cols.subarray(0, q), values: values.subarray(0, q) };
 }

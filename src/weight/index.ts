@@ -1,6 +1,6 @@
 import type { Normalization, WeightingConfig, WeightingScheme } from '../config/types.js';
 import { KindredError } from '../errors.js';
-import { dropZeros } from './block.js';
+import { dropZeros, dropZerosInPlace } from './block.js';
 import { precomputeContextTerms, type ContextTerms } from './context-terms.js';
 import { weightLogCount } from './log-count.js';
 import { weightObservedExpected } from './observed-expected.js';
@@ -18,8 +18,12 @@ export { computeMarginals } from './marginals.js';
 export { precomputeContextTerms, type ContextTerms } from './context-terms.js';
 export { dropZeros } from './block.js';
 
-/** A scheme's implementation; the optional precomputed context terms keep per-block cost at O(nnz + rows). */
-type WeightingKernel = (counts: RowBlock, m: Marginals, cfg: WeightingConfig, terms?: ContextTerms) => RowBlock;
+/**
+ * A scheme's implementation; the optional precomputed context terms keep per-block cost at O(nnz + rows). `into`:
+ * where the values go, counts.values itself to weight in place (each value depends on its own count and the
+ * marginals only); a new array when absent.
+ */
+type WeightingKernel = (counts: RowBlock, m: Marginals, cfg: WeightingConfig, terms?: ContextTerms, into?: Float64Array) => RowBlock;
 
 // One file per scheme, one line per scheme here.
 const registry: Record<WeightingScheme, WeightingKernel> = {
@@ -64,4 +68,15 @@ export function weightBlock(counts: RowBlock, m: Marginals, cfg: WeightingConfig
 /** Weights then normalizes a block: weightBlock followed by normalizeRows. */
 export function weightAndNormalize(counts: RowBlock, m: Marginals, cfg: WeightingConfig, kind: Normalization, terms?: ContextTerms): RowBlock {
   return normalizeRows(weightBlock(counts, m, cfg, terms), kind);
+}
+
+/**
+ * weightAndNormalize in the block's own arrays, which the caller owns and no longer needs: the same values, and no
+ * array allocated per block (fresh memory is slow to touch, docs/performance.md). Returns views of those arrays.
+ */
+export function weightAndNormalizeInPlace(block: RowBlock, m: Marginals, cfg: WeightingConfig, kind: Normalization, terms?: ContextTerms): RowBlock {
+  const kernel = kernelFor(cfg.scheme);
+  const needsTerms = cfg.scheme === 'ppmi' || cfg.scheme === 'pmi';
+  const weighted = dropZerosInPlace(kernel(block, m, cfg, needsTerms ? (terms ?? precomputeContextTerms(m, cfg)) : undefined, block.values));
+  return normalizeRows(weighted, kind, weighted.values);
 }

@@ -7,7 +7,7 @@ import type { Normalization, WeightingConfig } from '../config/types.js';
 import type { ShardValueType } from '../store/shards.js';
 import { ShardWriter, readShardBlocks } from '../store/shards.js';
 import type { FileChecksum } from '../store/arrow-sink.js';
-import { weightBlock, normalizeRows } from './index.js';
+import { weightAndNormalizeInPlace } from './index.js';
 import type { Marginals } from './types.js';
 
 export interface WeightSetup {
@@ -37,7 +37,8 @@ export class WeightMapper {
     const { weighting, normalize, valueType, marginals } = this.setup;
     const writer = new ShardWriter(task.outFile, valueType);
     for await (const counts of readShardBlocks(task.countsFile, task.firstRow, task.endRow)) {
-      writer.appendBlock(normalizeRows(weightBlock(counts, marginals, weighting), normalize));
+      // each block is read afresh and used once: weighted where it lies
+      writer.appendBlock(weightAndNormalizeInPlace(counts, marginals, weighting, normalize));
     }
     await writer.close();
     onProgress(1);

@@ -6,14 +6,15 @@ import type { RowBlock } from './types.js';
 /**
  * Scales each row to unit L2 norm (sqrt Σ v²) or unit L1 norm (Σ |v|); 'none' returns the block itself.
  * Returns a new block sharing indptr and cols with the input; rows with no entries, or only zeros, are left as they are.
+ * `into`: where the values go (block.values itself, to normalize in place); a new array when absent.
  */
-export function normalizeRows(block: RowBlock, kind: Normalization): RowBlock {
+export function normalizeRows(block: RowBlock, kind: Normalization, into?: Float64Array): RowBlock {
   if (kind === 'none') return block;
   if (kind !== 'l2' && kind !== 'l1') {
     throw new KindredError(`normalize: unknown value ${JSON.stringify(kind)}; use one of "l2", "l1", "none"`);
   }
   const { indptr, values } = block;
-  const out = new Float64Array(values.length);
+  const out = into ?? new Float64Array(values.length);
   const nRows = blockRowCount(block);
   for (let r = 0; r < nRows; r++) {
     const start = indptr[r];

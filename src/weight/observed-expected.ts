@@ -3,10 +3,10 @@ import { blockRowCount, checkBlockFits, withValues } from './block.js';
 import type { Marginals, RowBlock } from './types.js';
 
 /** count(w,c) / E(w,c) with E(w,c) = rowSums[w] · colSums[c] / total (Evert 2005, "The statistics of word cooccurrences"). */
-export function weightObservedExpected(counts: RowBlock, m: Marginals, _cfg: WeightingConfig): RowBlock {
+export function weightObservedExpected(counts: RowBlock, m: Marginals, _cfg: WeightingConfig, _terms?: unknown, into?: Float64Array): RowBlock {
   checkBlockFits(counts, m);
   const { indptr, cols, values } = counts;
-  const out = new Float64Array(values.length);
+  const out = into ?? new Float64Array(values.length);
   const nRows = blockRowCount(counts);
   for (let r = 0; r < nRows; r++) {
     const rowSum = m.rowSums[counts.firstRow + r];

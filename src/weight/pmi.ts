@@ -9,7 +9,11 @@ import type { Marginals, RowBlock } from './types.js';
  * Shifted PMI of every stored pair, optionally clipped at zero; shared by the PMI and PPMI schemes.
  * Pairs with count 0 are unobserved: their value is 0 (they are dropped later), not −∞.
  */
-export function pmiValues(counts: RowBlock, m: Marginals, cfg: WeightingConfig, clip: boolean, terms?: ContextTerms): RowBlock {
+/**
+ * `into`: where the values go (counts.values itself, to weight in place: each value depends on its own count only);
+ * a new array when absent.
+ */
+export function pmiValues(counts: RowBlock, m: Marginals, cfg: WeightingConfig, clip: boolean, terms?: ContextTerms, into?: Float64Array): RowBlock {
   checkBlockFits(counts, m);
   checkWeightingOptions(cfg);
   const t = terms ?? precomputeContextTerms(m, cfg);
@@ -20,7 +24,7 @@ export function pmiValues(counts: RowBlock, m: Marginals, cfg: WeightingConfig, 
   const total = m.total;
   // Shifted PMI subtracts log k (Levy & Goldberg 2014, "Neural word embedding as implicit matrix factorization").
   const logShift = log(cfg.shift);
-  const out = new Float64Array(values.length);
+  const out = into ?? new Float64Array(values.length);
   const nRows = blockRowCount(counts);
   for (let r = 0; r < nRows; r++) {
     const pw = m.rowSums[counts.firstRow + r] / total;
@@ -37,6 +41,6 @@ export function pmiValues(counts: RowBlock, m: Marginals, cfg: WeightingConfig, 
 }
 
 /** PMI on observed pairs, with the same context smoothing and shift as PPMI; unobserved pairs stay absent. */
-export function weightPmi(counts: RowBlock, m: Marginals, cfg: WeightingConfig, terms?: ContextTerms): RowBlock {
-  return pmiValues(counts, m, cfg, false, terms);
+export function weightPmi(counts: RowBlock, m: Marginals, cfg: WeightingConfig, terms?: ContextTerms, into?: Float64Array): RowBlock {
+  return pmiValues(counts, m, cfg, false, terms, into);
 }
