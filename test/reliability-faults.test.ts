@@ -44,7 +44,7 @@ beforeAll(() => {
 
 interface FaultCase {
   name: string;
-  fault: { write: string; code?: string; afterBytes?: number };
+  fault: { write?: string; sync?: string; code?: string; afterBytes?: number };
   /** The path the one-line error must name. */
   names: RegExp;
   why?: RegExp;
@@ -61,6 +61,10 @@ const cases: FaultCase[] = [
   { name: 'count stage: a run, after 100 bytes', fault: { write: 'runs/c00000-g00000-t00001\\.bin$', afterBytes: 100 }, names: inTmp('count-[^/]+/runs/c00000-g00000-t00001\\.bin') },
   { name: 'count stage: the marginals', fault: { write: 'marginals\\.bin' }, names: inTmp('count-[^/]+/marginals\\.bin') },
   { name: 'count stage: a weighted shard written with the counts, after 1000 bytes', fault: { write: 'weighted-[^/]+/part-00002\\.arrow$', afterBytes: 1000 }, names: inTmp('weighted-[^/]+/part-00002\\.arrow') },
+  // a shard's sync to disk runs while its thread goes on to the next part, and is waited for at the end
+  { name: 'count stage: syncing a counts shard to disk', fault: { sync: 'counts/part-00001\\.arrow$' }, names: inTmp('count-[^/]+/counts/part-00001\\.arrow'), why: /input\/output error \(EIO\)/ },
+  { name: 'count stage: syncing a weighted shard written with the counts', fault: { sync: 'weighted-[^/]+/part-00000\\.arrow$' }, names: inTmp('weighted-[^/]+/part-00000\\.arrow'), why: /input\/output error \(EIO\)/ },
+  { name: 'weight stage on its own: syncing a weighted shard', fault: { sync: 'weight-[^/]+/weighted/part-00001\\.arrow$' }, names: inTmp('weight-[^/]+/weighted/part-00001\\.arrow'), contexts: WEIGHT_STAGE_ALONE, why: /input\/output error \(EIO\)/ },
   { name: 'weight stage on its own: a weighted shard, after 1000 bytes', fault: { write: 'weight-[^/]+/weighted/part-00002\\.arrow$', afterBytes: 1000 }, names: inTmp('weight-[^/]+/weighted/part-00002\\.arrow'), contexts: WEIGHT_STAGE_ALONE },
   { name: 'sealing a stage: stage.json', fault: { write: 'stage\\.json' }, names: inTmp('vocabulary-[^/]+/stage\\.json') },
   { name: 'assembling the build: a hard link', fault: { write: 'tmp/build-[^/]+/counts/part-00000\\.arrow$' }, names: inTmp('build-[^/]+/counts/part-00000\\.arrow') },

@@ -10,6 +10,9 @@
  *       rename and mkdir whose destination matches fail at once.
  *   { "read": "<regex>", "code": "EACCES" }
  *       opening (or access-checking) a matching path for reading fails with `code`.
+ *   { "sync": "<regex>", "code": "EIO" }
+ *       syncing (fsync, fsyncSync) a file opened for writing at a matching path fails with `code`: its bytes were
+ *       all written, but the disk could not keep them.
  */
 import fs from 'node:fs';
 import { syncBuiltinESMExports } from 'node:module';
@@ -19,7 +22,8 @@ const spec = process.env.KINDRED_TEST_FS_FAULT ? JSON.parse(process.env.KINDRED_
 if (spec) {
   const writeRe = spec.write ? new RegExp(spec.write) : null;
   const readRe = spec.read ? new RegExp(spec.read) : null;
-  const code = spec.code ?? (writeRe ? 'ENOSPC' : 'EACCES');
+  const syncRe = spec.sync ? new RegExp(spec.sync) : null;
+  const code = spec.code ?? (writeRe ? 'ENOSPC' : syncRe ? 'EIO' : 'EACCES');
   const afterBytes = spec.afterBytes ?? 0;
   const messages = { ENOSPC: 'no space left on device', EACCES: 'permission denied', EIO: 'i/o error' };
 
@@ -57,12 +61,27 @@ if (spec) {
     return left;
   };
 
-  const { openSync, writeSync, closeSync, accessSync } = fs;
+  /** Paths of the descriptors whose sync fails. */
+  const failingSyncs = new Map();
+  const { openSync, writeSync, closeSync, accessSync, fsync, fsyncSync } = fs;
   fs.openSync = function (p, flags, mode) {
     if (matchesRead(p) && !forWrite(flags)) throw fault('open', p);
     const fd = openSync.call(this, p, flags, mode);
     if (forWrite(flags) && matchesWrite(p)) tracked.set(fd, { path: text(p), written: 0 });
+    if (forWrite(flags) && syncRe !== null && syncRe.test(text(p))) failingSyncs.set(fd, text(p));
     return fd;
+  };
+  fs.fsyncSync = function (fd) {
+    if (failingSyncs.has(fd)) throw fault('fsync');
+    return fsyncSync.call(this, fd);
+  };
+  fs.fsync = function (fd, callback) {
+    if (failingSyncs.has(fd)) {
+      const e = fault('fsync');
+      setImmediate(() => callback(e));
+      return;
+    }
+    return fsync.call(this, fd, callback);
   };
   fs.writeSync = function (fd, data, offset, length, position) {
     const t = tracked.get(fd);
@@ -79,6 +98,7 @@ if (spec) {
   };
   fs.closeSync = function (fd) {
     tracked.delete(fd);
+    failingSyncs.delete(fd);
     return closeSync.call(this, fd);
   };
   fs.accessSync = function (p, mode) {

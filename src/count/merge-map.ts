@@ -5,7 +5,7 @@
  * does not depend on which thread merged which part.
  */
 import type { Normalization, WeightingConfig } from '../config/types.js';
-import { ShardWriter, type ShardValueType } from '../store/shards.js';
+import { ShardWriter, Syncing, type ShardValueType } from '../store/shards.js';
 import type { FileChecksum } from '../store/arrow-sink.js';
 import { weightAndNormalizeInPlace } from '../weight/index.js';
 import type { Marginals } from '../weight/types.js';
@@ -120,9 +120,10 @@ class WeightedRows {
     this.fill = 0;
   }
 
-  async close(): Promise<void> {
+  /** Writes the rest now; the promise settles once the shard is on disk (ShardWriter.end). */
+  end(): Promise<void> {
     this.flush();
-    await this.writer.close();
+    return this.writer.end();
   }
 }
 
@@ -132,6 +133,9 @@ function grow<T extends Uint32Array | Float64Array>(from: T, to: T): T {
 }
 
 export class MergeMapper {
+  /** The written shards' syncs to disk, waited for at the end (a part's syncs overlap the next part's work). */
+  private readonly syncing = new Syncing();
+
   constructor(private readonly setup: MergeSetup) {}
 
   async run(task: MergeTask, onProgress: (parts: number) => void): Promise<MergeResult> {
@@ -178,8 +182,8 @@ export class MergeMapper {
       });
       for (const s of sources) s.close();
     }
-    await writer.close();
-    await weighted?.close();
+    this.syncing.add(writer.end());
+    if (weighted !== null) this.syncing.add(weighted.end());
     onProgress(1);
     return {
       entries: writer.entries, rowSums, rowNnz, colSums, total,
@@ -187,7 +191,9 @@ export class MergeMapper {
     };
   }
 
-  finish(): Record<string, never> {
+  /** Once every shard it wrote is on disk. */
+  async finish(): Promise<Record<string, never>> {
+    await this.syncing.done();
     return {};
   }
 }

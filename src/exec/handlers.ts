@@ -13,7 +13,8 @@ import type { MergeResult, MergeSetup, MergeTask } from '../count/merge-map.js';
 /** One mapper: runs tasks one after the other, then hands over its accumulated partial result. */
 export interface Mapper<Task, Result, Partial> {
   run(task: Task, onProgress: (bytes: number) => void): Promise<Result>;
-  finish(): Partial;
+  /** The partial result, once the mapper's work is complete (written files synced, for the writing kinds). */
+  finish(): Partial | Promise<Partial>;
 }
 
 export interface MapKinds {

@@ -115,7 +115,7 @@ async function runInThisThread<K extends MapKind>(
   const mapper = await createMapper(kind, setup);
   const results: MapKinds[K]['result'][] = [];
   for (const task of tasks) results.push((await mapper.run(task, onProgress)) as MapKinds[K]['result']);
-  return { results, partials: [mapper.finish() as MapKinds[K]['partial']], threads: 1 };
+  return { results, partials: [(await mapper.finish()) as MapKinds[K]['partial']], threads: 1 };
 }
 
 function runOnThreads<K extends MapKind>(

@@ -35,7 +35,7 @@ async function handle(msg: ToWorker): Promise<void> {
     pending = 0;
     send({ type: 'result', index: msg.index, result }, resultTransferables(result));
   } else {
-    const partial = mapper!.finish();
+    const partial = await mapper!.finish();
     mapper = null;
     send({ type: 'partial', partial }, transferablesOf(partial));
   }

@@ -3,7 +3,7 @@
  * every term, vectors of 100,000 terms) are written batch by batch.
  */
 import { createHash } from 'node:crypto';
-import { closeSync, fsyncSync, openSync } from 'node:fs';
+import { closeSync, fsync, openSync } from 'node:fs';
 import type { Data, Schema, Utf8 as Utf8Type } from 'apache-arrow';
 import { AsyncByteQueue, makeData, RecordBatch, RecordBatchFileWriter, Struct, Utf8 } from './arrow.js';
 import { wrapWriteError, writeBytesOrThrow } from './atomic.js';
@@ -86,15 +86,33 @@ export class ArrowFileSink {
 
   /** Writes the footer (an empty batch first when nothing was written, so the file has the schema), syncs, closes. */
   async close(emptyChildren: () => Data[]): Promise<void> {
+    await this.end(emptyChildren);
+  }
+
+  /**
+   * Writes the footer and takes the checksum now; the returned promise settles once the file is synced to disk
+   * and closed. The sync runs on libuv's threads, so the caller may go on working meanwhile (it must handle the
+   * promise at once, and wait for it before the file counts as written).
+   */
+  end(emptyChildren: () => Data[]): Promise<void> {
     try {
       if (!this.wroteAny) this.write(emptyChildren(), 0);
       this.writer.finish();
-      fsyncSync(this.fd);
       this.checksum = { bytes: this.sink.bytes, sha256: this.sink.hash.digest('hex') };
     } catch (e) {
-      throw wrapWriteError(e, this.file);
-    } finally {
       closeSync(this.fd);
+      throw wrapWriteError(e, this.file);
     }
+    return new Promise((resolve, reject) => {
+      fsync(this.fd, (err) => {
+        try {
+          closeSync(this.fd);
+        } catch (e) {
+          err ??= e as NodeJS.ErrnoException;
+        }
+        if (err) reject(wrapWriteError(err, this.file));
+        else resolve();
+      });
+    });
   }
 }

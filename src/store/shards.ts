@@ -107,12 +107,40 @@ export class ShardWriter {
 
   /** Writes the footer, syncs and closes the file. */
   async close(): Promise<void> {
-    this.flushBatch();
+    await this.end();
+  }
+
+  /**
+   * Writes the rest of the file now; the returned promise settles once it is synced to disk (ArrowFileSink.end),
+   * so that the caller may go on meanwhile.
+   */
+  end(): Promise<void> {
     try {
-      await this.sink.close(() => this.children(0));
+      this.flushBatch();
+      return this.sink.end(() => this.children(0));
     } finally {
       giveBuffer(this.buf);
     }
+  }
+}
+
+/**
+ * Files being synced to disk (ShardWriter.end), waited for together: the first failure is kept (and no rejection
+ * goes unhandled meanwhile) and thrown by done().
+ */
+export class Syncing {
+  private readonly pending: Promise<void>[] = [];
+  private failure: { error: unknown } | null = null;
+
+  add(synced: Promise<void>): void {
+    this.pending.push(synced.catch((e: unknown) => {
+      this.failure ??= { error: e };
+    }));
+  }
+
+  async done(): Promise<void> {
+    await Promise.all(this.pending.splice(0));
+    if (this.failure !== null) throw this.failure.error;
   }
 }
 

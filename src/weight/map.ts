@@ -5,7 +5,7 @@
  */
 import type { Normalization, WeightingConfig } from '../config/types.js';
 import type { ShardValueType } from '../store/shards.js';
-import { ShardWriter, readShardBlocks } from '../store/shards.js';
+import { ShardWriter, Syncing, readShardBlocks } from '../store/shards.js';
 import type { FileChecksum } from '../store/arrow-sink.js';
 import { weightAndNormalizeInPlace } from './index.js';
 import type { Marginals } from './types.js';
@@ -31,6 +31,9 @@ export interface WeightResult {
 }
 
 export class WeightMapper {
+  /** The written shards' syncs to disk, waited for at the end (a part's sync overlaps the next part's work). */
+  private readonly syncing = new Syncing();
+
   constructor(private readonly setup: WeightSetup) {}
 
   async run(task: WeightTask, onProgress: (parts: number) => void): Promise<WeightResult> {
@@ -40,12 +43,14 @@ export class WeightMapper {
       // each block is read afresh and used once: weighted where it lies
       writer.appendBlock(weightAndNormalizeInPlace(counts, marginals, weighting, normalize));
     }
-    await writer.close();
+    this.syncing.add(writer.end());
     onProgress(1);
     return { entries: writer.entries, checksum: writer.checksum! };
   }
 
-  finish(): Record<string, never> {
+  /** Once every shard it wrote is on disk. */
+  async finish(): Promise<Record<string, never>> {
+    await this.syncing.done();
     return {};
   }
 }
