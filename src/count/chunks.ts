@@ -123,6 +123,11 @@ export class ChunkMemory {
     this.gather = new SharedArrayBuffer(4 * Math.ceil(gatherBytes / 4));
   }
 
+  /** The chunk's ids and the gathering buffer, the memory a count touches most. */
+  bulk(): SharedArrayBuffer[] {
+    return [this.ids, this.gather];
+  }
+
   /** The gathering buffer: entries like the ids for windows, int32 for document numbers. */
   gatheredOf(documents: boolean): ChunkIds {
     return this.narrow && !documents ? new Uint16Array(this.gather) : new Int32Array(this.gather);

@@ -4,7 +4,7 @@ import {
   VocabularyMapper, transferablesOf as countTransferables, type SplitResult, type VocabularyPartial, type VocabularySetup,
 } from '../count/map.js';
 import { RowsMapper, type RowsPartial, type RowsResult, type RowsSetup, type RowsTask } from '../count/rows-map.js';
-import { ChunkMapper, type ChunkSetup, type ChunkTask } from '../count/chunk-map.js';
+import { ChunkMapper, TouchMapper, type ChunkSetup, type ChunkTask, type TouchSetup } from '../count/chunk-map.js';
 import type { SliceCounts } from '../count/chunks.js';
 import { GatherMapper, type GatherSetup, type GatherTask } from '../count/gather.js';
 import type { WeightResult, WeightSetup, WeightTask } from '../weight/map.js';
@@ -20,6 +20,7 @@ export interface Mapper<Task, Result, Partial> {
 export interface MapKinds {
   vocabulary: { setup: VocabularySetup; task: InputSplit; result: SplitResult; partial: VocabularyPartial };
   chunk: { setup: ChunkSetup; task: ChunkTask; result: SliceCounts; partial: Record<string, never> };
+  touch: { setup: TouchSetup; task: null; result: null; partial: Record<string, never> };
   gather: { setup: GatherSetup; task: GatherTask; result: null; partial: Record<string, never> };
   rows: { setup: RowsSetup; task: RowsTask; result: RowsResult; partial: RowsPartial };
   weight: { setup: WeightSetup; task: WeightTask; result: WeightResult; partial: Record<string, never> };
@@ -55,6 +56,10 @@ export async function createMapper(kind: MapKind, setup: unknown): Promise<AnyMa
   if (kind === 'chunk') {
     const m = new ChunkMapper(setup as ChunkSetup);
     return { run: (t) => m.run(t as ChunkTask), finish: () => m.finish() };
+  }
+  if (kind === 'touch') {
+    const m = new TouchMapper(setup as TouchSetup);
+    return { run: () => m.run(), finish: () => m.finish() };
   }
   const m = new RowsMapper(setup as RowsSetup);
   return { run: (t, p) => m.run(t as RowsTask, p), finish: () => m.finish() };
