@@ -15,6 +15,7 @@ import { formatOf, makeContext, READERS } from './readers.js';
 import { parseFieldPath, recordFields } from './records.js';
 import type { IngestStats } from './types.js';
 import { Utf8LineDecoder } from './utf8.js';
+import { giveBuffer, takeBuffer } from '../store/buffer-pool.js';
 
 /** One unit of reading work. */
 export interface InputSplit {
@@ -270,10 +271,13 @@ export async function readSplit(
   }
 }
 
-/** Reads file[start, end) in chunks through one reused buffer; a leading UTF-8 byte-order mark is skipped. */
+/**
+ * Reads file[start, end) in chunks through one buffer, reused by the thread's next split (fresh memory is slow to
+ * touch); a leading UTF-8 byte-order mark is skipped. onChunk must not keep the chunk past its call.
+ */
 function readRange(split: InputSplit, onDiskBytes: (n: number) => void, onChunk: (chunk: Buffer) => void): void {
   const fd = openOrThrow(split.file);
-  const buf = Buffer.allocUnsafe(READ_BYTES);
+  const buf = takeBuffer(READ_BYTES);
   try {
     for (let at = split.start; at < split.end; ) {
       let n: number;
@@ -291,6 +295,7 @@ function readRange(split: InputSplit, onDiskBytes: (n: number) => void, onChunk:
     }
   } finally {
     closeSync(fd);
+    giveBuffer(buf);
   }
 }
 
