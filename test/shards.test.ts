@@ -1,15 +1,19 @@
 /** Shard files round-trip through several record batches (checked by reading back, with apache-arrow's reader). */
-import { describe, it, expect } from 'vitest';
+import { describe, it, expect, afterAll } from 'vitest';
 import { createHash } from 'node:crypto';
-import { mkdtempSync, readFileSync, statSync } from 'node:fs';
+import { mkdtempSync, readFileSync, rmSync, statSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import { ShardWriter, readShard, readShardBlocks, readArrowTable } from '../src/store/shards.js';
 
+/** One folder for every case's files, removed at the end. */
+const work = mkdtempSync(path.join(os.tmpdir(), 'kindred-shard-'));
+afterAll(() => rmSync(work, { recursive: true, force: true }));
+
 describe('ShardWriter', () => {
   for (const valueType of ['float32', 'float64'] as const) {
     it(`writes ${valueType} shards larger than one record batch`, async () => {
-      const file = path.join(mkdtempSync(path.join(os.tmpdir(), 'kindred-shard-')), 'part.arrow');
+      const file = path.join(mkdtempSync(path.join(work, 'case-')), 'part.arrow');
       const w = new ShardWriter(file, valueType);
       const nRows = 2500;
       const perRow = 1000;
@@ -28,7 +32,7 @@ describe('ShardWriter', () => {
   }
 
   it('hands each record batch to the file as it is written, not at close (memory stays at one batch)', async () => {
-    const file = path.join(mkdtempSync(path.join(os.tmpdir(), 'kindred-shard-')), 'part.arrow');
+    const file = path.join(mkdtempSync(path.join(work, 'case-')), 'part.arrow');
     const w = new ShardWriter(file, 'float64');
     // a synchronous loop, as in the k-way merge: nothing awaits between batches
     for (let i = 0; i < 3 * (1 << 20); i++) w.append(i >>> 10, i & 1023, i);
@@ -38,7 +42,7 @@ describe('ShardWriter', () => {
   });
 
   it('streams blocks of complete rows that together equal the whole shard, rows spanning batches included', async () => {
-    const file = path.join(mkdtempSync(path.join(os.tmpdir(), 'kindred-shard-')), 'part.arrow');
+    const file = path.join(mkdtempSync(path.join(work, 'case-')), 'part.arrow');
     const w = new ShardWriter(file, 'float64');
     // rows of 0 .. 1.5M entries, so some rows span two or three record batches of 2^20 entries
     const lengths = [3, 1_500_000, 0, 700_000, 5, 1_100_000, 1];

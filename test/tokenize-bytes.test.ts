@@ -3,8 +3,8 @@
  * src/tokenize/index.ts, itself checked against an independent Python version of docs/tokenize.md
  * (python3 `re` + `unicodedata`) in test/tokenize-reference.test.ts. Property test on seeded random text.
  */
-import { describe, it, expect } from 'vitest';
-import { mkdtempSync, writeFileSync } from 'node:fs';
+import { describe, it, expect, afterAll } from 'vitest';
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import { createTokenizer } from '../src/tokenize/index.js';
@@ -40,6 +40,7 @@ const CONFIGS: TokenizeConfig[] = [
 
 describe('byte tokenizer gives the tokens of the reference rule (src/tokenize/index.ts)', () => {
   const dir = mkdtempSync(path.join(os.tmpdir(), 'kindred-tokbytes-'));
+  afterAll(() => rmSync(dir, { recursive: true, force: true }));
   writeFileSync(path.join(dir, 'stop.txt'), 'the\n# comment\nab\nÉté\ndon’t\n');
   for (const [c, cfg] of CONFIGS.entries()) {
     it(`random ASCII and Unicode text, config ${c} (${cfg.numbers}, minLength ${cfg.minLength}, lowercase ${cfg.lowercase})`, async () => {
