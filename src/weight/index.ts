@@ -60,23 +60,20 @@ export function getWeighting(scheme: WeightingScheme): WeightingFn {
  * Pass `terms` from precomputeContextTerms to share column quantities explicitly; otherwise they are memoised per marginals.
  */
 export function weightBlock(counts: RowBlock, m: Marginals, cfg: WeightingConfig, terms?: ContextTerms): RowBlock {
-  const kernel = kernelFor(cfg.scheme);
-  const needsTerms = cfg.scheme === 'ppmi' || cfg.scheme === 'pmi';
-  return dropZeros(kernel(counts, m, cfg, needsTerms ? (terms ?? precomputeContextTerms(m, cfg)) : undefined));
+  return dropZeros(weighted(counts, m, cfg, terms));
 }
 
-/** Weights then normalizes a block: weightBlock followed by normalizeRows. */
-export function weightAndNormalize(counts: RowBlock, m: Marginals, cfg: WeightingConfig, kind: Normalization, terms?: ContextTerms): RowBlock {
-  return normalizeRows(weightBlock(counts, m, cfg, terms), kind);
+/** The scheme's weights of every entry of a block (zeros kept), into `into` when given (the kernels' `into`). */
+function weighted(counts: RowBlock, m: Marginals, cfg: WeightingConfig, terms?: ContextTerms, into?: Float64Array): RowBlock {
+  const needsTerms = cfg.scheme === 'ppmi' || cfg.scheme === 'pmi';
+  return kernelFor(cfg.scheme)(counts, m, cfg, needsTerms ? (terms ?? precomputeContextTerms(m, cfg)) : undefined, into);
 }
 
 /**
- * weightAndNormalize in the block's own arrays, which the caller owns and no longer needs: the same values, and no
- * array allocated per block (fresh memory is slow to touch, docs/performance.md). Returns views of those arrays.
+ * weightBlock then normalizeRows, in the block's own arrays, which the caller owns and no longer needs: the same
+ * values, and no array allocated per block (fresh memory is slow to touch, docs/performance.md). Returns views of those arrays.
  */
 export function weightAndNormalizeInPlace(block: RowBlock, m: Marginals, cfg: WeightingConfig, kind: Normalization, terms?: ContextTerms): RowBlock {
-  const kernel = kernelFor(cfg.scheme);
-  const needsTerms = cfg.scheme === 'ppmi' || cfg.scheme === 'pmi';
-  const weighted = dropZerosInPlace(kernel(block, m, cfg, needsTerms ? (terms ?? precomputeContextTerms(m, cfg)) : undefined, block.values));
-  return normalizeRows(weighted, kind, weighted.values);
+  const sparse = dropZerosInPlace(weighted(block, m, cfg, terms, block.values));
+  return normalizeRows(sparse, kind, sparse.values);
 }
