@@ -33,6 +33,8 @@ export interface BuildOptions {
   progress?: Progress;
   /** Tokens per chunk of the count stage; derived from memoryMiB unless set (tests force many chunks with it). */
   chunkTokens?: number;
+  /** Mirror entries a merge thread holds at once; derived from the count stage's memory unless set (tests force many row ranges with it). */
+  mirrorEntries?: number;
   /** Hears one-line notes (a stale lock taken over, a damaged stage output redone); default: stderr. */
   notify?: (message: string) => void;
 }
@@ -146,6 +148,8 @@ interface CountSummary {
   pairEvents: number;
   entries: number[];
   chunks: number;
+  /** Symmetric windows counted mirrored (passes.ts); absent in stage summaries written before it was. */
+  mirrored?: boolean;
 }
 
 interface WeightSummary {
@@ -258,15 +262,15 @@ async function buildAndPublish(
       const chunkTokens = opts.chunkTokens ?? chunkTokensFor(cfg.memoryMiB);
       // the weight stage runs after a count stage that ran: counting may write its shards on the way
       const weigh = { weighting: cfg.weighting, normalize: cfg.normalize, valueType: cfg.output.valueType, dir: await area.temporaryFolder(`weighted-${weightKey}`) };
-      const r = await countPairs(cfg, exec, streams, vocab.terms.length, nCols, ranges, dir, chunkTokens, progress, weigh);
+      const r = await countPairs(cfg, exec, streams, vocab.terms.length, nCols, ranges, dir, chunkTokens, progress, weigh, opts.mirrorEntries);
       r.checksums?.counts.forEach((c, i) => known.set(path.join(dir, 'counts', partFileName(i)), c));
       if (r.weighted !== null && r.checksums?.weighted) prepared = { dir: weigh.dir, entries: r.weighted, checksums: r.checksums.weighted };
       await fsp.rm(path.join(dir, 'runs'), { recursive: true, force: true });
       // the weight stage needs the marginals; keeping them here lets it run (or rerun) without recounting
       await writeMarginals(path.join(dir, MARGINALS_FILE), r.marginals);
-      return { pairEvents: r.pairs, entries: r.entries, chunks: r.chunks };
+      return { pairEvents: r.pairs, entries: r.entries, chunks: r.chunks, mirrored: r.mirrored };
     },
-    counts: (s) => ({ pairEvents: s.pairEvents, entries: sum(s.entries), chunks: s.chunks }),
+    counts: (s) => ({ pairEvents: s.pairEvents, entries: sum(s.entries), chunks: s.chunks, mirrored: s.mirrored === true ? 1 : 0 }),
   });
   const marginals = readMarginals(path.join(countStage.dir, MARGINALS_FILE));
 

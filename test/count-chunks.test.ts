@@ -38,6 +38,27 @@ describe('chunks and merge', () => {
       expect(inMemory.stages.find((s) => s.name === 'count')!.counts.chunks).toBe(1);
       expect(checksums(chunked)).toEqual(checksums(inMemory));
       expect(readFileSync(path.join(work, `chunks-${weighting}`, 'weighted', 'part-00000.arrow')).length).toBeGreaterThan(0);
+      // one chunk of symmetric windows is counted mirrored (R + Rᵀ from the right-hand windows), many are not:
+      // the same bytes either way; and with the merge holding few mirror entries at a time (many row ranges, each
+      // reading the part's mirror segments again) as well
+      expect(inMemory.stages.find((s) => s.name === 'count')!.counts.mirrored).toBe(1);
+      expect(chunked.stages.find((s) => s.name === 'count')!.counts.mirrored).toBe(0);
+      const ranges = await runBuild(loaded(raw), { outDir: path.join(work, `ranges-${weighting}`), mirrorEntries: 50 });
+      expect(ranges.stages.find((s) => s.name === 'count')!.counts.mirrored).toBe(1);
+      expect(checksums(ranges)).toEqual(checksums(inMemory));
     });
   }
+
+  it('one-sided windows are not mirrored, and many chunks give the same bytes', async () => {
+    const raw = {
+      input: { paths: ['brown.txt'], format: 'text-lines' },
+      vocabulary: { minCount: 2 },
+      contexts: { window: 3, direction: 'left' },
+      output: { parts: 2 },
+    };
+    const one = await runBuild(loaded(raw), { outDir: path.join(work, 'left-one') });
+    const many = await runBuild(loaded(raw), { outDir: path.join(work, 'left-many'), chunkTokens: 10_000 });
+    expect(one.stages.find((s) => s.name === 'count')!.counts.mirrored).toBe(0);
+    expect(checksums(many)).toEqual(checksums(one));
+  });
 });

@@ -148,7 +148,7 @@ async function counted(
     for (const group of planGroups(chunk.rowStart, N_TERMS, gatherCapacity(gathered, ctx))) {
       const layout = await gatherGroup(loaded, group, ctx, gathered, slices);
       if (layout === null) lone++;
-      const mapper = new RowsMapper({ chunk, contexts: ctx, weights, nCols: ctx.type === 'document' ? 10_000 : N_TERMS, gathered, group, layout });
+      const mapper = new RowsMapper({ chunk, contexts: ctx, weights, nCols: ctx.type === 'document' ? 10_000 : N_TERMS, gathered, group, layout, mirror: null });
       for (let first = group.first; first < group.end; first += rowsPerTask) {
         const endRow = Math.min(group.end, first + rowsPerTask);
         const file = path.join(work, `run-${run++}.bin`);
@@ -231,3 +231,4 @@ describe('chunked row counting equals counting by definition', () => {
     });
   }
 });
+

@@ -222,15 +222,30 @@ export function gatherBytesFor(memoryMiB: number, maxOwn: number, contexts: Cont
   return Math.min(Math.floor(memoryMiB * 1024 * 1024 * GATHER_SHARE), wanted);
 }
 
+/**
+ * Whether symmetric windows are counted mirrored: only the right-hand windows R are gathered and counted, and
+ * the counts are R + Rᵀ (the left-hand window of w holding c at distance d is the right-hand window of c
+ * holding w at d, with the same weight and the same document), put together by the merge from each cell
+ * written twice (rows-map.ts, merge-map.ts): half the gathering and adding. Exact because the weights are
+ * integers (every sum is exact in any order); in one chunk, whose runs hold each row once; rows and columns
+ * are the same terms; the merge sums rows in a dense scratch row.
+ */
+function mirroredCounting(ctx: ContextsConfig, chunks: number, nRows: number): boolean {
+  return ctx.type === 'window' && ctx.direction === 'symmetric' && exactWeights(ctx) && chunks === 1 && nRows <= MAX_ROW_WISE_COLUMNS;
+}
+
 /** The count pass's chunks and shared memory, for a corpus of stream entries in files of `lengths` over nRows terms. */
 function countPlan(cfg: KindredConfig, lengths: number[], nRows: number, chunkTokens: number) {
-  const ctx = cfg.contexts;
-  const margin = ctx.type === 'document' ? 0 : ctx.window;
+  const margin = cfg.contexts.type === 'document' ? 0 : cfg.contexts.window;
   const chunks = planChunks(lengths.reduce((s, n) => s + n, 0), chunkTokens);
+  const mirrored = mirroredCounting(cfg.contexts, chunks.length, nRows);
+  // the contexts the count tasks gather and count: the right-hand windows only when mirrored
+  const ctx: ContextsConfig = mirrored ? { ...cfg.contexts, direction: 'right' } : cfg.contexts;
   const maxOwn = chunks.reduce((m, k) => Math.max(m, k.to - k.from), 0);
   const gatherBytes = gatherBytesFor(cfg.memoryMiB, maxOwn, ctx, nRows);
-  return { chunks, margin, maxOwn, gatherBytes, key: JSON.stringify([maxOwn, margin, nRows, gatherBytes]) };
+  return { chunks, margin, maxOwn, gatherBytes, ctx, mirrored, key: JSON.stringify([maxOwn, margin, nRows, gatherBytes]) };
 }
+
 
 /** The count pass's memory, made and touched on the threads ahead of it (prepareCountMemory); null when not. */
 let prepared: { key: string; memory: ChunkMemory; touched: Promise<boolean> } | null = null;
@@ -340,23 +355,28 @@ export interface WeighTarget {
  */
 export async function countPairs(
   cfg: KindredConfig, exec: CountExec, streams: CorpusStreams, nRows: number, nCols: number, ranges: RowRange[],
-  workDir: string, chunkTokens: number, progress: Progress, weigh: WeighTarget | null = null,
+  workDir: string, chunkTokens: number, progress: Progress, weigh: WeighTarget | null = null, mirrorEntriesAsked?: number,
 ): Promise<{
-  marginals: Marginals; entries: number[]; weighted: number[] | null; pairs: number; chunks: number; threads: number;
+  marginals: Marginals; entries: number[]; weighted: number[] | null; pairs: number; chunks: number; threads: number; mirrored: boolean;
   /** Size and SHA-256 of each part's counts shard and (when weighted) weighted shard, as written; null: not known. */
   checksums: { counts: FileChecksum[]; weighted: FileChecksum[] | null } | null;
 }> {
   const runDir = path.join(workDir, 'runs');
   await fsp.mkdir(runDir, { recursive: true });
-  const ctx = cfg.contexts;
-  const { weights, scale } = windowWeights(ctx);
+  const { weights, scale } = windowWeights(cfg.contexts);
   const lengths = streamLengths(streams);
   const total = lengths.reduce((s, n) => s + n, 0);
   const plan = countPlan(cfg, lengths, nRows, chunkTokens);
-  const { chunks, margin } = plan;
+  // ctx: what the count tasks count (the right-hand windows only when mirrored)
+  const { chunks, margin, ctx, mirrored } = plan;
   const partRuns: string[][] = ranges.map(() => []);
+  // mirrored: the segments of mirror files bound for each part, with the first row of the task that wrote them
+  const partMirrors: { firstRow: number; file: string; start: number; count: number }[][] = ranges.map(() => []);
+  const mirrorFiles: string[] = [];
+  const partOf = mirrored ? sharedInt32(nCols) : null;
+  for (const [p, r] of ranges.entries()) partOf?.fill(p, r.firstRow, r.endRow);
   // the count tasks' sums (scaled), complete when there is one chunk
-  const early = { rowSums: new Float64Array(nRows), rowNnz: new Uint32Array(nRows), colSums: new Float64Array(nCols) };
+  const early = { rowSums: new Float64Array(nRows), rowNnz: new Uint32Array(nRows), colSums: new Float64Array(nCols), colNnz: new Uint32Array(nCols) };
   let pairs = 0;
   let threads = 1;
   let firstDocument = 0;
@@ -391,14 +411,23 @@ export async function countPairs(
         file: path.join(runDir, `c${String(c).padStart(5, '0')}-g${String(g).padStart(5, '0')}-t${String(i).padStart(5, '0')}.bin`),
         progress: ((to - from) * planned[i].cost) / chunkCost,
       }));
-      const run = await runMap('rows', () => ({ chunk, contexts: ctx, weights, nCols, gathered, group, layout }), tasks, exec.workers, (n) => progress.update((done += n)));
+      // mirrored: a mirror file per thread
+      const mirrorOf = (m: number): string => path.join(runDir, `c${String(c).padStart(5, '0')}-g${String(g).padStart(5, '0')}-mirror${String(m).padStart(3, '0')}.bin`);
+      const run = await runMap('rows', (m) => {
+        if (partOf !== null) mirrorFiles.push(mirrorOf(m));
+        return { chunk, contexts: ctx, weights, nCols, gathered, group, layout, mirror: partOf === null ? null : { partOf, parts: ranges.length, file: mirrorOf(m) } };
+      }, tasks, exec.workers, (n) => progress.update((done += n)));
       threads = Math.max(threads, run.threads);
       for (const [j, r] of run.results.entries()) {
-        pairs += r.pairs;
+        pairs += mirrored ? 2 * r.pairs : r.pairs;
         addAt(early.rowSums, tasks[j].firstRow, r.rowSums);
         addAt(early.rowNnz, tasks[j].firstRow, r.rowNnz);
+        for (const m of r.mirror) partMirrors[m.part].push({ firstRow: tasks[j].firstRow, file: r.mirrorFile!, start: m.start, count: m.count });
       }
-      for (const p of run.partials) addAt(early.colSums, 0, p.colSums);
+      for (const p of run.partials) {
+        addAt(early.colSums, 0, p.colSums);
+        addAt(early.colNnz, 0, p.colNnz);
+      }
       // runs in row order within each part
       const fileOf = new Array<string>(planned.length);
       for (const [j, i] of order.entries()) fileOf[i] = tasks[j].file;
@@ -420,19 +449,36 @@ export async function countPairs(
   if (nCols <= MAX_ROW_WISE_COLUMNS) {
     // with integer weights the sums are exact, so the count tasks' sums are the marginals the merge sums
     const fuse = weigh !== null && chunks.length === 1 && exactWeights(ctx) ? weigh : null;
-    const earlyMarginals = fuse === null ? null : scaledMarginals(early.rowSums.slice(), early.colSums.slice(), early.rowNnz, scale);
+    // mirrored, the counts are R + Rᵀ: a row's sum is R's row sum plus R's column sum, and so is the column's
+    // (exact: sums of integers); the rows' nonzeros are known once merged (no window weighting reads them)
+    const earlySums = mirrored ? early.rowSums.map((v, r) => v + early.colSums[r]) : early.rowSums;
+    const earlyMarginals = fuse === null ? null
+      : scaledMarginals(earlySums.slice(), mirrored ? earlySums.slice() : early.colSums.slice(), mirrored ? new Uint32Array(nRows) : early.rowNnz, scale);
     const weighSetup = fuse === null || earlyMarginals === null ? null
       : { weighting: fuse.weighting, normalize: fuse.normalize, valueType: fuse.valueType, marginals: earlyMarginals };
     // one part per task on the threads, each row's entries summed in a dense scratch row
     // the largest parts first (by the count tasks' entries: exact in one chunk, an upper bound in many), so that
     // the threads finish together
-    const size = ranges.map((r) => early.rowNnz.subarray(r.firstRow, r.endRow).reduce((s, n) => s + n, 0));
+    const size = ranges.map((r) => early.rowNnz.subarray(r.firstRow, r.endRow).reduce((s, n) => s + n, 0) + (mirrored ? early.colNnz.subarray(r.firstRow, r.endRow).reduce((s, n) => s + n, 0) : 0));
     const order = ranges.map((_, i) => i).sort((a, b) => size[b] - size[a] || a - b);
     const tasks: MergeTask[] = order.map((i) => ({
       file: partFile(i), firstRow: ranges[i].firstRow, endRow: ranges[i].endRow, runs: partRuns[i],
       weightedFile: fuse === null ? null : path.join(fuse.dir, partFileName(i)),
+      // a task's segments in the order written (the sort is stable)
+      mirror: mirrored
+        ? { segments: partMirrors[i].sort((a, b) => a.firstRow - b.firstRow).map(({ file, start, count }) => ({ file, start, count })), nnz: early.colNnz.slice(ranges[i].firstRow, ranges[i].endRow) }
+        : null,
     }));
-    const run = await runMap('merge', () => ({ nCols, scale, bufferRecords, disjoint: chunks.length === 1, weigh: weighSetup }), tasks, exec.workers);
+    // mirrored, the threads hold the Rᵀ entries of the rows they merge in the chunk's memory, done with by now
+    // and touched already: a share of its ids for the columns, of its gathering buffer for the values
+    const [idsMemory, gatherMemory] = memory.bulk();
+    const workers = Math.max(1, exec.workers);
+    const fits = Math.max(1, Math.min(Math.floor(idsMemory.byteLength / workers / 4), Math.floor(gatherMemory.byteLength / workers / 8)));
+    const mirrorEntries = Math.min(fits, mirrorEntriesAsked ?? fits);
+    const run = await runMap('merge', (m) => ({
+      nCols, scale, bufferRecords, disjoint: chunks.length === 1, weigh: weighSetup, mirrorEntries,
+      mirrorMemory: mirrored ? { cols: idsMemory, vals: gatherMemory, slot: m, entries: mirrorEntries } : null,
+    }), tasks, exec.workers);
     const merged = new Array<MergeResult>(ranges.length);
     for (const [j, i] of order.entries()) merged[i] = run.results[j];
     // sums of integers (scaled weights) are exact, so adding the parts' column sums in any order gives the same bits
@@ -446,7 +492,7 @@ export async function countPairs(
     checksums = { counts: merged.map((m) => m.countsChecksum), weighted: null };
     if (earlyMarginals !== null) {
       const final = scaledMarginals(rowSums.slice(), colSums.slice(), rowNnz, scale);
-      if (!sameMarginals(final, earlyMarginals)) throw new Error('the count tasks\' sums differ from the merged counts\' (a bug)');
+      if (!sameMarginals(final, earlyMarginals, !mirrored)) throw new Error('the count tasks\' sums differ from the merged counts\' (a bug)');
       weighted = merged.map((m) => m.weightedEntries);
       checksums.weighted = merged.map((m) => m.weightedChecksum!);
     }
@@ -467,9 +513,10 @@ export async function countPairs(
     }
   }
   for (const runs of partRuns) for (const f of runs) rmSync(f, { force: true });
+  for (const f of mirrorFiles) rmSync(f, { force: true });
   const marginals = scaledMarginals(rowSums, colSums, rowNnz, scale, sumAll);
   progress.end(`${pairs} pair events, ${entries.reduce((s, n) => s + n, 0)} nonzero counts, ${chunks.length} chunk${chunks.length > 1 ? 's' : ''} (${threads} thread${threads > 1 ? 's' : ''})`);
-  return { marginals, entries, weighted, pairs, chunks: chunks.length, threads, checksums };
+  return { marginals, entries, weighted, pairs, chunks: chunks.length, threads, checksums, mirrored };
 }
 
 /** Marginals from scaled row and column sums (divided in place); total: the scaled sum of all cells, else the row sums' sum. */
@@ -481,9 +528,9 @@ function scaledMarginals(rowSums: Float64Array, colSums: Float64Array, rowNnz: U
   return { nRows: rowSums.length, nCols: colSums.length, rowSums, colSums, total: sum / scale, rowNnz };
 }
 
-function sameMarginals(a: Marginals, b: Marginals): boolean {
+function sameMarginals(a: Marginals, b: Marginals, nonzeros: boolean): boolean {
   if (a.total !== b.total) return false;
-  for (let r = 0; r < a.nRows; r++) if (a.rowSums[r] !== b.rowSums[r] || a.rowNnz[r] !== b.rowNnz[r]) return false;
+  for (let r = 0; r < a.nRows; r++) if (a.rowSums[r] !== b.rowSums[r] || (nonzeros && a.rowNnz[r] !== b.rowNnz[r])) return false;
   for (let c = 0; c < a.nCols; c++) if (a.colSums[c] !== b.colSums[c]) return false;
   return true;
 }

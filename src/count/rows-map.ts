@@ -10,7 +10,7 @@
 import type { ContextsConfig } from '../config/types.js';
 import { documentEndIn, type Chunk, type ChunkIds } from './chunks.js';
 import { gatherRow, gatherWidth, type RowGroup } from './gather.js';
-import { RunWriter } from './runs.js';
+import { MirrorWriter, RunWriter, type MirrorSegment } from './runs.js';
 
 export interface RowsSetup {
   chunk: Chunk;
@@ -23,6 +23,11 @@ export interface RowsSetup {
   group: RowGroup;
   /** Where the group's occurrences lie in the buffer (groupLayout); null for a lone row. */
   layout: Int32Array | null;
+  /**
+   * Mirrored counting (passes.ts): each cell (r, c, v) is written a second time, as (c, r, v), to this thread's
+   * mirror file, in segments of the part that holds row c; partOf[c] is that part (shared). Null: not mirrored.
+   */
+  mirror: { partOf: Int32Array; parts: number; file: string } | null;
 }
 
 export interface RowsTask {
@@ -42,34 +47,53 @@ export interface RowsResult {
   /** Per row of the task: the sum of its cells (scaled, summed in column order) and its nonzero cells, in this chunk. */
   rowSums: Float64Array;
   rowNnz: Uint32Array;
+  /** Mirrored counting: the thread's mirror file (setup.mirror.file; null when not mirrored) and the task's segments of it, in write order. */
+  mirrorFile: string | null;
+  mirror: MirrorSegment[];
 }
 
-/** A mapper's column sums (scaled) over all the rows it counted. */
+/** A mapper's column sums (scaled) and nonzero cells per column over all the rows it counted. */
 export interface RowsPartial {
   colSums: Float64Array;
+  colNnz: Uint32Array;
 }
 
 /**
  * Adds a row's cells (columns cols, values sums[col]) to the column sums; returns the row's sum. A function of
  * its own, so that the code around this loop, compiled while the loop runs, is not compiled before it ran.
  */
-function addToColumns(cols: Uint32Array, sums: Float64Array, colSums: Float64Array): number {
+function addToColumns(cols: Uint32Array, sums: Float64Array, colSums: Float64Array, colNnz: Uint32Array): number {
   let rowSum = 0;
   for (let i = 0; i < cols.length; i++) {
     const c = cols[i];
     rowSum += sums[c];
     colSums[c] += sums[c];
+    colNnz[c]++;
   }
   return rowSum;
 }
 
-/** A task's run file and the sums of its rows; every mapper's column sums. */
+/** Records a thread holds per part before writing them to its mirror file. */
+const MIRROR_BUFFER_RECORDS = 1 << 12;
+
+/** Writes row r's cells (columns cols, values sums[col]) as (col, r, value), bound for the part of row col. */
+function mirrorRow(r: number, cols: Uint32Array, sums: Float64Array, partOf: Int32Array, writer: MirrorWriter): void {
+  for (let i = 0; i < cols.length; i++) {
+    const c = cols[i];
+    writer.append(partOf[c], c, r, sums[c]);
+  }
+}
+
+/** A task's run file and the sums of its rows; every mapper's column sums (and mirror file). */
 class RowOutput {
   private readonly run: RunWriter;
   readonly rowSums: Float64Array;
   readonly rowNnz: Uint32Array;
 
-  constructor(private readonly task: RowsTask, private readonly colSums: Float64Array) {
+  constructor(
+    private readonly task: RowsTask, private readonly colSums: Float64Array, private readonly colNnz: Uint32Array,
+    private readonly partOf: Int32Array | null, private readonly mirror: MirrorWriter | null,
+  ) {
     this.run = new RunWriter(task.file);
     this.rowSums = new Float64Array(task.endRow - task.firstRow);
     this.rowNnz = new Uint32Array(task.endRow - task.firstRow);
@@ -81,9 +105,10 @@ class RowOutput {
 
   /** Row r's cells: columns cols (ascending), values sums[col]. */
   appendRow(r: number, cols: Uint32Array, sums: Float64Array): void {
-    this.rowSums[r - this.task.firstRow] = addToColumns(cols, sums, this.colSums);
+    this.rowSums[r - this.task.firstRow] = addToColumns(cols, sums, this.colSums, this.colNnz);
     this.rowNnz[r - this.task.firstRow] = cols.length;
     this.run.appendRow(r, cols, sums);
+    if (this.mirror !== null) mirrorRow(r, cols, sums, this.partOf!, this.mirror);
   }
 
   /** One cell of row r, rows and columns in ascending order. */
@@ -91,6 +116,7 @@ class RowOutput {
     this.rowSums[r - this.task.firstRow] += value;
     this.rowNnz[r - this.task.firstRow]++;
     this.colSums[c] += value;
+    this.colNnz[c]++;
     this.run.append(r, c, value);
   }
 
@@ -155,24 +181,31 @@ function addWindows(
 /** Rows of a chunk as sorted runs, with their sums. */
 export class RowsMapper {
   private readonly colSums: Float64Array;
+  private readonly colNnz: Uint32Array;
+  private readonly mirror: MirrorWriter | null;
 
   constructor(private readonly setup: RowsSetup) {
     this.colSums = new Float64Array(setup.nCols);
+    this.colNnz = new Uint32Array(setup.nCols);
+    this.mirror = setup.mirror === null ? null : new MirrorWriter(setup.mirror.file, setup.mirror.parts, MIRROR_BUFFER_RECORDS);
   }
 
   async run(task: RowsTask, onProgress: (units: number) => void): Promise<RowsResult> {
-    const out = new RowOutput(task, this.colSums);
+    const out = new RowOutput(task, this.colSums, this.colNnz, this.setup.mirror?.partOf ?? null, this.mirror);
+    let mirror: MirrorSegment[] = [];
     let pairs = 0;
     try {
       pairs = this.setup.contexts.type === 'document' ? this.documentRows(task, out) : this.windowRows(task, out);
+      if (this.mirror !== null) mirror = this.mirror.endTask();
     } catch (e) {
       scratch = null; // it may hold a row half counted
+      this.mirror?.close(); // the mapper is done for
       throw e;
     } finally {
       out.close();
     }
     onProgress(task.progress);
-    return { entries: out.records, pairs, rowSums: out.rowSums, rowNnz: out.rowNnz };
+    return { entries: out.records, pairs, rowSums: out.rowSums, rowNnz: out.rowNnz, mirrorFile: this.setup.mirror?.file ?? null, mirror };
   }
 
   /**
@@ -239,6 +272,7 @@ export class RowsMapper {
   }
 
   finish(): RowsPartial {
-    return { colSums: this.colSums };
+    this.mirror?.close();
+    return { colSums: this.colSums, colNnz: this.colNnz };
   }
 }

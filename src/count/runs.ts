@@ -22,13 +22,17 @@ function writeRecords(u32: Uint32Array, f64: Float64Array, at: number, row: numb
 
 export class RunWriter {
   private readonly fd: number;
-  private readonly buf = takeBuffer(RECORD * BUFFER_RECORDS);
-  private readonly u32 = new Uint32Array(this.buf.buffer, this.buf.byteOffset, (RECORD / 4) * BUFFER_RECORDS);
-  private readonly f64 = new Float64Array(this.buf.buffer, this.buf.byteOffset, (RECORD / 8) * BUFFER_RECORDS);
+  private readonly buf: Buffer;
+  private readonly u32: Uint32Array;
+  private readonly f64: Float64Array;
   private fill = 0;
   records = 0;
 
-  constructor(readonly file: string) {
+  /** bufferRecords: records held before each write. */
+  constructor(readonly file: string, private readonly bufferRecords = BUFFER_RECORDS) {
+    this.buf = takeBuffer(RECORD * bufferRecords);
+    this.u32 = new Uint32Array(this.buf.buffer, this.buf.byteOffset, (RECORD / 4) * bufferRecords);
+    this.f64 = new Float64Array(this.buf.buffer, this.buf.byteOffset, (RECORD / 8) * bufferRecords);
     try {
       this.fd = openSync(file, 'w');
     } catch (e) {
@@ -42,17 +46,17 @@ export class RunWriter {
     this.u32[4 * i + 1] = col;
     this.f64[2 * i + 1] = value;
     this.records++;
-    if (++this.fill === BUFFER_RECORDS) this.flush();
+    if (++this.fill === this.bufferRecords) this.flush();
   }
 
   /** Appends row's entries: columns cols (ascending), values sums[col]. */
   appendRow(row: number, cols: Uint32Array, sums: Float64Array): void {
     for (let from = 0; from < cols.length;) {
-      const n = Math.min(cols.length - from, BUFFER_RECORDS - this.fill);
+      const n = Math.min(cols.length - from, this.bufferRecords - this.fill);
       writeRecords(this.u32, this.f64, this.fill, row, cols, from, n, sums);
       this.fill += n;
       from += n;
-      if (this.fill === BUFFER_RECORDS) this.flush();
+      if (this.fill === this.bufferRecords) this.flush();
     }
     this.records += cols.length;
   }
@@ -69,6 +73,101 @@ export class RunWriter {
       closeSync(this.fd);
       giveBuffer(this.buf);
     }
+  }
+}
+
+/** A piece of a mirror file: `count` records from record `start`, all of one part. */
+export interface MirrorSegment {
+  part: number;
+  start: number;
+  count: number;
+}
+
+/**
+ * One thread's mirror file (mirrored counting, passes.ts): records (row, col, value) bound for the parts that
+ * hold their rows, kept in a small buffer per part and appended to the one file in segments of one part each.
+ * `endTask` writes out every buffer and returns the segments written since the last call, in write order.
+ */
+export class MirrorWriter {
+  private readonly fd: number;
+  private readonly buf: Buffer;
+  private readonly u32: Uint32Array;
+  private readonly f64: Float64Array;
+  /** Records in each part's buffer (part p's buffer starts at record p * perPart). */
+  private readonly fill: Int32Array;
+  private written = 0;
+  private segments: MirrorSegment[] = [];
+  private closed = false;
+
+  constructor(readonly file: string, parts: number, private readonly perPart: number) {
+    this.buf = takeBuffer(RECORD * parts * perPart);
+    this.u32 = new Uint32Array(this.buf.buffer, this.buf.byteOffset, (RECORD / 4) * parts * perPart);
+    this.f64 = new Float64Array(this.buf.buffer, this.buf.byteOffset, (RECORD / 8) * parts * perPart);
+    this.fill = new Int32Array(parts);
+    try {
+      this.fd = openSync(file, 'w');
+    } catch (e) {
+      giveBuffer(this.buf);
+      throw wrapWriteError(e, file);
+    }
+  }
+
+  append(part: number, row: number, col: number, value: number): void {
+    const i = part * this.perPart + this.fill[part];
+    this.u32[4 * i] = row;
+    this.u32[4 * i + 1] = col;
+    this.f64[2 * i + 1] = value;
+    if (++this.fill[part] === this.perPart) this.flush(part);
+  }
+
+  private flush(part: number): void {
+    const n = this.fill[part];
+    if (n === 0) return;
+    const from = RECORD * part * this.perPart;
+    writeBytesOrThrow(this.fd, this.buf.subarray(from, from + RECORD * n), RECORD * n, this.file);
+    this.segments.push({ part, start: this.written, count: n });
+    this.written += n;
+    this.fill[part] = 0;
+  }
+
+  endTask(): MirrorSegment[] {
+    for (let p = 0; p < this.fill.length; p++) this.flush(p);
+    const out = this.segments;
+    this.segments = [];
+    return out;
+  }
+
+  /** Closes the file (once; later calls do nothing). */
+  close(): void {
+    if (this.closed) return;
+    this.closed = true;
+    closeSync(this.fd);
+    giveBuffer(this.buf);
+  }
+}
+
+/**
+ * Reads `count` records from record `start` of an open run file through a buffer of bufferRecords, in batches
+ * as readRunBatches does.
+ */
+export function readRunRange(
+  fd: number, file: string, start: number, count: number, bufferRecords: number, onBatch: (u32: Uint32Array, f64: Float64Array, n: number) => void,
+): void {
+  // always the same size, so that the thread's pool gives the same buffer back every time
+  const records = Math.max(1, bufferRecords);
+  const buf = takeBuffer(RECORD * records);
+  const u32 = new Uint32Array(buf.buffer, buf.byteOffset, (RECORD / 4) * records);
+  const f64 = new Float64Array(buf.buffer, buf.byteOffset, (RECORD / 8) * records);
+  try {
+    for (let done = 0; done < count;) {
+      const n = Math.min(records, count - done);
+      const bytes = readSync(fd, buf, 0, RECORD * n, RECORD * (start + done));
+      if (bytes !== RECORD * n) throw new Error(`${file}: ${bytes} bytes read at record ${start + done}, ${RECORD * n} expected (cut short)`);
+      onBatch(u32, f64, n);
+      done += n;
+    }
+  } finally {
+    giveBuffer(buf);
   }
 }
 
