@@ -20,7 +20,7 @@ import { ChunkMemory, planChunks, streamLengths, type CorpusStreams } from '../s
 import { gatherGroup, loadChunk } from '../src/count/passes.js';
 import { gatherCapacity, planGroups } from '../src/count/gather.js';
 import { withThreadPool } from '../src/exec/pool.js';
-import { RowsMapper } from '../src/count/rows-map.js';
+import { RowsMapper, orderColumns } from '../src/count/rows-map.js';
 import { RunReader } from '../src/count/runs.js';
 import { windowWeights } from '../src/count/cooccur.js';
 import { DOCUMENT_END, TokenStreamWriter } from '../src/count/token-stream.js';
@@ -232,3 +232,24 @@ describe('chunked row counting equals counting by definition', () => {
   }
 });
 
+describe('ordering a row\'s touched columns', () => {
+  it('gives the columns in ascending order, as a numeric sort does, through a sort or through the bitmap', () => {
+    const rand = mulberry32(7);
+    for (const nCols of [100, 48_931, 203_042]) {
+      const bits = new Int32Array((nCols + 31) >>> 5);
+      const touched = new Uint32Array(nCols);
+      for (const n of [1, 31, 511, 512, 513, 2000, Math.min(nCols, 40_000), nCols]) {
+        if (n > nCols) continue;
+        // n distinct columns in first-touch order, most of them small (frequent terms have small ids)
+        const seen = new Set<number>();
+        while (seen.size < n) seen.add(rand() < 0.9 ? Math.floor(rand() * Math.min(nCols, 4 * n)) : Math.floor(rand() * nCols));
+        const cols = [...seen];
+        touched.set(cols);
+        const got = [...orderColumns(touched, n, bits)];
+        // reference: Array.prototype.sort with a numeric comparator
+        expect(got).toEqual(cols.slice().sort((a, b) => a - b));
+        expect(bits.every((w) => w === 0)).toBe(true); // left clean for the next row
+      }
+    }
+  });
+});
