@@ -1,16 +1,16 @@
 /**
  * The count stage's merge task, run in a worker thread or the main thread alike: the rows of one output part
- * from its runs (one per count task of each chunk), summed row by row and written as that part's counts
- * shard, with the part's marginals. Parts are independent, so the merge runs on all threads and its output
+ * from its runs (one per count task of each chunk), summed row by row (or, counted mirrored, merged with the
+ * part's rows of Rᵀ from the mirror files) and written as that part's counts shard, with the part's marginals. Parts are independent, so the merge runs on all threads and its output
  * does not depend on which thread merged which part.
  */
+import { closeSync, openSync } from 'node:fs';
 import type { Normalization, WeightingConfig } from '../config/types.js';
 import { ShardWriter, Syncing, type ShardValueType } from '../store/shards.js';
 import type { FileChecksum } from '../store/arrow-sink.js';
+import { giveBuffer, takeBuffer } from '../store/buffer-pool.js';
 import { weightAndNormalizeInPlace } from '../weight/index.js';
 import type { Marginals } from '../weight/types.js';
-import { closeSync, openSync } from 'node:fs';
-import { giveBuffer, takeBuffer } from '../store/buffer-pool.js';
 import { RunReader, SortedRowSource, mergeRowWise, readRunBatches, readRunRange } from './runs.js';
 
 export interface MergeSetup {
@@ -42,6 +42,7 @@ export interface WeighSetup {
   marginals: Marginals;
 }
 
+/** Mirrored counting: where a part's Rᵀ entries are (segments of the threads' mirror files) and how many each row has. */
 export interface MirrorInput {
   segments: { file: string; start: number; count: number }[];
   nnz: Uint32Array;
@@ -258,7 +259,6 @@ function grow<T extends Uint32Array | Float64Array>(from: T, to: T): T {
 export class MergeMapper {
   /** The written shards' syncs to disk, waited for at the end (a part's syncs overlap the next part's work). */
   private readonly syncing = new Syncing();
-  /** Mirrored counting: the Rᵀ entries of the rows being merged (columns and values), kept from part to part. */
   /** Mirrored counting: this thread's share of the count stage's memory, for the Rᵀ entries of the rows being merged. */
   private arrays: { cols: Uint32Array; vals: Float64Array } | null = null;
 

@@ -5,7 +5,8 @@
  * cell is summed in corpus order, whatever the thread and the groups, so the runs depend on neither. The
  * scratch row stays in cache for the columns of frequent terms (ids are in descending count order), which is
  * where most of a row's events fall. A lone row with more occurrences than the buffer holds is gathered here,
- * in pieces, and counted piece by piece.
+ * in pieces, and counted piece by piece. Counted mirrored (passes.ts), each cell is also written turned around
+ * to the thread's mirror file, for the merge to add R's transpose.
  */
 import type { ContextsConfig } from '../config/types.js';
 import { documentEndIn, type Chunk, type ChunkIds } from './chunks.js';
