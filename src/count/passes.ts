@@ -75,12 +75,14 @@ export async function countTerms(
   const size = vocab.terms.length;
   // each mapper's term ids to the final ids (-1: not in the vocabulary), through the merged table's ids
   const finalIds = merged.mergedIds.map((ids) => mapShared(ids, finalOfMerged));
+  const streams = { refs, finalIds };
+  prepareChunk(streams);
   progress.end(`${stats.documents} documents, ${tokens} tokens, ${table.size} distinct terms, ${size} kept (${run.threads} thread${run.threads > 1 ? 's' : ''})`);
   return {
     vocab,
     counter: { tokens, size: table.size },
     threads: run.threads,
-    streams: { refs, finalIds },
+    streams,
   };
 }
 
@@ -247,8 +249,14 @@ function countPlan(cfg: KindredConfig, lengths: number[], nRows: number, chunkTo
 }
 
 
-/** The count pass's memory, made and touched on the threads ahead of it (prepareCountMemory); null when not. */
-let prepared: { key: string; memory: ChunkMemory; touched: Promise<boolean> } | null = null;
+/**
+ * The count pass's memory, made and touched on the threads ahead of it (prepareCountMemory), and its one chunk
+ * loaded into it (prepareChunk) from `streams`; null when not.
+ */
+let prepared: {
+  key: string; memory: ChunkMemory; touched: Promise<boolean>; margin: number; workers: number;
+  streams: CorpusStreams | null; loaded: Promise<LoadedChunk | null> | null;
+} | null = null;
 
 /**
  * Makes the count pass's memory now and has the threads touch it (TouchMapper) while the calling thread goes on
@@ -264,15 +272,37 @@ function prepareCountMemory(cfg: KindredConfig, lengths: number[], nRows: number
   const buffers = memory.bulk();
   const touching = runMap('touch', (part) => ({ buffers, part, parts: workers }), new Array<null>(workers).fill(null), workers);
   // a failure to touch is no failure of the build: the count pass then makes its own memory
-  prepared = { key: plan.key, memory, touched: touching.then(() => true, () => false) };
+  prepared = { key: plan.key, memory, touched: touching.then(() => true, () => false), margin: plan.margin, workers, streams: null, loaded: null };
 }
 
-/** The memory of a count pass of the given plan: the one made ahead (once touched), else a new one. */
-async function countMemory(plan: ReturnType<typeof countPlan>, nRows: number): Promise<ChunkMemory> {
+/**
+ * Loads the one chunk of `streams` into the memory made ahead, once touched, while the calling thread writes and
+ * seals the vocabulary: loading needs only the final ids. The count pass takes it when it counts those streams
+ * with the same plan (countMemory); a failed load leaves the count pass to load (and report) it itself.
+ */
+function prepareChunk(streams: CorpusStreams): void {
+  const ahead = prepared;
+  if (ahead === null) return;
+  const lengths = streamLengths(streams);
+  const total = lengths.reduce((s, n) => s + n, 0);
+  ahead.streams = streams;
+  ahead.loaded = ahead.touched
+    .then((ok) => (ok ? loadChunk(streams, lengths, 0, total, ahead.margin, ahead.memory, 0, ahead.workers) : null))
+    .catch(() => null);
+}
+
+/**
+ * The memory of a count pass of the given plan over `streams`: the one made ahead (once touched), with its one
+ * chunk when loaded ahead from these streams, else a new one.
+ */
+async function countMemory(plan: ReturnType<typeof countPlan>, nRows: number, streams: CorpusStreams): Promise<{ memory: ChunkMemory; loaded: LoadedChunk | null }> {
   const ahead = prepared;
   prepared = null;
-  if (ahead !== null && (await ahead.touched) && ahead.key === plan.key) return ahead.memory;
-  return new ChunkMemory(plan.maxOwn, plan.margin, nRows, false, plan.gatherBytes);
+  if (ahead !== null && (await ahead.touched) && ahead.key === plan.key) {
+    const loaded = ahead.streams === streams && ahead.loaded !== null && plan.chunks.length === 1 ? await ahead.loaded : null;
+    return { memory: ahead.memory, loaded };
+  }
+  return { memory: new ChunkMemory(plan.maxOwn, plan.margin, nRows, false, plan.gatherBytes), loaded: null };
 }
 
 /** A loaded chunk, and the slices it was loaded in with their counts (for gathering, gather.ts). */
@@ -383,11 +413,11 @@ export async function countPairs(
   let removed = 0;
   progress.start('count', total, 'tokens');
   let done = 0;
-  const memory = await countMemory(plan, nRows);
+  const { memory, loaded: loadedAhead } = await countMemory(plan, nRows, streams);
   const gathered = memory.gatheredOf(ctx.type === 'document');
   const capacity = gatherCapacity(gathered, ctx);
   for (const [c, { from, to }] of chunks.entries()) {
-    const loaded = await loadChunk(streams, lengths, from, to, margin, memory, firstDocument, exec.workers);
+    const loaded = c === 0 && loadedAhead !== null ? loadedAhead : await loadChunk(streams, lengths, from, to, margin, memory, firstDocument, exec.workers);
     const { chunk } = loaded;
     firstDocument += chunk.documentEnds;
     // streams wholly behind the next chunk's reach are no longer needed
