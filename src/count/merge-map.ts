@@ -29,10 +29,10 @@ export interface MergeSetup {
   mirrorEntries: number;
   /**
    * Mirrored counting: memory the count stage is done with (touched already, where fresh memory is slow), for
-   * the threads' mirror entries: thread `slot` takes `entries` columns (4 bytes each) of `cols` and values (8
-   * bytes each) of `vals` from slot * entries on. Null: fresh arrays.
+   * the threads' mirror entries: thread `slot` takes mirrorEntries columns (4 bytes each) of `cols` and values
+   * (8 bytes each) of `vals` from slot * mirrorEntries on. Null: fresh arrays.
    */
-  mirrorMemory: { cols: SharedArrayBuffer; vals: SharedArrayBuffer; slot: number; entries: number } | null;
+  mirrorMemory: { cols: SharedArrayBuffer; vals: SharedArrayBuffer; slot: number } | null;
 }
 
 export interface WeighSetup {
@@ -264,9 +264,9 @@ export class MergeMapper {
 
   /** The thread's arrays for n mirror entries: its share of the count stage's memory when that holds them (it does when the setup plans so), else fresh. */
   private mirrorArrays(n: number): { cols: Uint32Array; vals: Float64Array } {
-    const { mirrorMemory } = this.setup;
+    const { mirrorMemory, mirrorEntries: entries } = this.setup;
     if (this.arrays === null && mirrorMemory !== null) {
-      const { cols, vals, slot, entries } = mirrorMemory;
+      const { cols, vals, slot } = mirrorMemory;
       this.arrays = { cols: new Uint32Array(cols, 4 * slot * entries, entries), vals: new Float64Array(vals, 8 * slot * entries, entries) };
     }
     if (this.arrays === null || this.arrays.cols.length < n) this.arrays = { cols: new Uint32Array(n), vals: new Float64Array(n) };

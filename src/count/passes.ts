@@ -507,7 +507,7 @@ export async function countPairs(
     const mirrorEntries = Math.min(fits, mirrorEntriesAsked ?? fits);
     const run = await runMap('merge', (m) => ({
       nCols, scale, bufferRecords, disjoint: chunks.length === 1, weigh: weighSetup, mirrorEntries,
-      mirrorMemory: mirrored ? { cols: idsMemory, vals: gatherMemory, slot: m, entries: mirrorEntries } : null,
+      mirrorMemory: mirrored ? { cols: idsMemory, vals: gatherMemory, slot: m } : null,
     }), tasks, exec.workers);
     const merged = new Array<MergeResult>(ranges.length);
     for (const [j, i] of order.entries()) merged[i] = run.results[j];

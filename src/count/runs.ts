@@ -1,4 +1,4 @@
-import { openSync, readSync, closeSync } from 'node:fs';
+import { openSync, readSync, closeSync, fstatSync } from 'node:fs';
 import { wrapWriteError, writeBytesOrThrow } from '../store/atomic.js';
 import { giveBuffer, takeBuffer } from '../store/buffer-pool.js';
 
@@ -22,17 +22,13 @@ function writeRecords(u32: Uint32Array, f64: Float64Array, at: number, row: numb
 
 export class RunWriter {
   private readonly fd: number;
-  private readonly buf: Buffer;
-  private readonly u32: Uint32Array;
-  private readonly f64: Float64Array;
+  private readonly buf = takeBuffer(RECORD * BUFFER_RECORDS);
+  private readonly u32 = new Uint32Array(this.buf.buffer, this.buf.byteOffset, (RECORD / 4) * BUFFER_RECORDS);
+  private readonly f64 = new Float64Array(this.buf.buffer, this.buf.byteOffset, (RECORD / 8) * BUFFER_RECORDS);
   private fill = 0;
   records = 0;
 
-  /** bufferRecords: records held before each write. */
-  constructor(readonly file: string, private readonly bufferRecords = BUFFER_RECORDS) {
-    this.buf = takeBuffer(RECORD * bufferRecords);
-    this.u32 = new Uint32Array(this.buf.buffer, this.buf.byteOffset, (RECORD / 4) * bufferRecords);
-    this.f64 = new Float64Array(this.buf.buffer, this.buf.byteOffset, (RECORD / 8) * bufferRecords);
+  constructor(readonly file: string) {
     try {
       this.fd = openSync(file, 'w');
     } catch (e) {
@@ -46,17 +42,17 @@ export class RunWriter {
     this.u32[4 * i + 1] = col;
     this.f64[2 * i + 1] = value;
     this.records++;
-    if (++this.fill === this.bufferRecords) this.flush();
+    if (++this.fill === BUFFER_RECORDS) this.flush();
   }
 
   /** Appends row's entries: columns cols (ascending), values sums[col]. */
   appendRow(row: number, cols: Uint32Array, sums: Float64Array): void {
     for (let from = 0; from < cols.length;) {
-      const n = Math.min(cols.length - from, this.bufferRecords - this.fill);
+      const n = Math.min(cols.length - from, BUFFER_RECORDS - this.fill);
       writeRecords(this.u32, this.f64, this.fill, row, cols, from, n, sums);
       this.fill += n;
       from += n;
-      if (this.fill === this.bufferRecords) this.flush();
+      if (this.fill === BUFFER_RECORDS) this.flush();
     }
     this.records += cols.length;
   }
@@ -239,22 +235,13 @@ export class RunReader implements SortedSource {
  * u32[4i], col u32[4i + 1], value f64[2i + 1]), valid during the call only.
  */
 export function readRunBatches(file: string, bufferRecords: number, onBatch: (u32: Uint32Array, f64: Float64Array, n: number) => void): void {
-  const records = Math.max(1, bufferRecords);
-  const buf = takeBuffer(RECORD * records);
-  const u32 = new Uint32Array(buf.buffer, buf.byteOffset, (RECORD / 4) * records);
-  const f64 = new Float64Array(buf.buffer, buf.byteOffset, (RECORD / 8) * records);
   const fd = openSync(file, 'r');
   try {
-    for (let position = 0; ;) {
-      const bytes = readSync(fd, buf, 0, buf.length, position);
-      if (bytes <= 0) break;
-      if (bytes % RECORD !== 0) throw new Error(`${file}: run cut inside a record (${bytes} bytes read)`);
-      position += bytes;
-      onBatch(u32, f64, bytes / RECORD);
-    }
+    const bytes = fstatSync(fd).size;
+    if (bytes % RECORD !== 0) throw new Error(`${file}: run cut inside a record (${bytes} bytes)`);
+    readRunRange(fd, file, 0, bytes / RECORD, bufferRecords, onBatch);
   } finally {
     closeSync(fd);
-    giveBuffer(buf);
   }
 }
 
