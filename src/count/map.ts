@@ -9,7 +9,7 @@ import type { InputConfig, TokenizeConfig } from '../config/types.js';
 import { readSplit, type DocumentSink, type InputSplit } from '../ingest/split.js';
 import { emptyIngestStats, type IngestStats } from '../ingest/types.js';
 import { createByteTokenizer, type ByteTokenizer, type TokenSink } from '../tokenize/bytes.js';
-import { TermTable, type TermBytes } from './term-table.js';
+import { TermTable, sortByBytes, type TermBytes } from './term-table.js';
 import { DOCUMENT_END, TokenStreamWriter, type TokenStreamRef } from './token-stream.js';
 
 export interface ReadSetup {
@@ -35,6 +35,8 @@ export interface SplitResult {
 
 export interface VocabularyPartial {
   terms: TermBytes;
+  /** The mapper's term ids in the order of their bytes (sortByBytes), for merging the mappers' terms. */
+  order: Uint32Array;
   counts: Float64Array;
   docFreqs: Uint32Array;
   tokens: number;
@@ -117,12 +119,17 @@ export class VocabularyMapper {
 
   finish(): VocabularyPartial {
     const n = this.table.size;
-    return { terms: this.table.toTermBytes(), counts: this.counts.slice(0, n), docFreqs: this.docFreqs.slice(0, n), tokens: this.tokens };
+    const terms = this.table.toTermBytes();
+    // sorted here, on each mapper's thread at once, so that the calling thread merges sorted lists
+    const order = new Uint32Array(n);
+    for (let i = 0; i < n; i++) order[i] = i;
+    sortByBytes(terms.arena, terms.offsets, order);
+    return { terms, order, counts: this.counts.slice(0, n), docFreqs: this.docFreqs.slice(0, n), tokens: this.tokens };
   }
 }
 
 /** The typed arrays of a partial, for a zero-copy hand-over between threads. */
 export function transferablesOf(partial: VocabularyPartial): ArrayBuffer[] {
-  const arrays = [partial.terms.arena, partial.terms.offsets, partial.counts, partial.docFreqs];
+  const arrays = [partial.terms.arena, partial.terms.offsets, partial.order, partial.counts, partial.docFreqs];
   return arrays.map((a) => a.buffer).filter((b, i, all): b is ArrayBuffer => b instanceof ArrayBuffer && b.byteLength > 0 && all.indexOf(b) === i);
 }

@@ -150,3 +150,78 @@ export class TermTable {
     this.mask = mask;
   }
 }
+
+/** Below this many ids a range is sorted by insertion (sortByBytes). */
+const INSERTION_SORT_IDS = 12;
+
+/**
+ * Sorts ids (indexes into `offsets`: term id's bytes are arena[offsets[id], offsets[id + 1])) by their bytes, in
+ * lexicographic order (for UTF-8, code point order), shorter before longer at a common prefix. Multikey quicksort
+ * (Bentley and Sedgewick, "Fast algorithms for sorting and searching strings", SODA 1997): a three-way partition on
+ * the byte at depth d, the middle part then taken at d + 1, so no byte is compared twice more than the partitions
+ * need; an id whose term has ended sorts before every byte. The terms must be distinct (as a table's are).
+ */
+export function sortByBytes(arena: Uint8Array, offsets: Uint32Array, ids: Uint32Array): void {
+  // ranges still to sort: lo, hi, depth
+  const stack: number[] = [0, ids.length, 0];
+  while (stack.length > 0) {
+    let d = stack.pop()!;
+    let hi = stack.pop()!;
+    let lo = stack.pop()!;
+    for (;;) {
+      if (hi - lo < INSERTION_SORT_IDS) {
+        insertionSortByBytes(arena, offsets, ids, lo, hi, d);
+        break;
+      }
+      const v = median3(byteAt(arena, offsets, ids[lo], d), byteAt(arena, offsets, ids[(lo + hi) >>> 1], d), byteAt(arena, offsets, ids[hi - 1], d));
+      let lt = lo;
+      let gt = hi - 1;
+      let i = lo;
+      while (i <= gt) {
+        const b = byteAt(arena, offsets, ids[i], d);
+        if (b < v) {
+          const t = ids[lt];
+          ids[lt++] = ids[i];
+          ids[i++] = t;
+        } else if (b > v) {
+          const t = ids[gt];
+          ids[gt--] = ids[i];
+          ids[i] = t;
+        } else i++;
+      }
+      // [lo, lt) below v, [lt, gt] equal to v at depth d, (gt, hi) above v
+      if (lt - lo > 1) stack.push(lo, lt, d);
+      if (hi - gt > 2) stack.push(gt + 1, hi, d);
+      // the ids equal at d go on at d + 1, unless their terms ended at d (then they are one term: distinct terms)
+      if (v < 0) break;
+      lo = lt;
+      hi = gt + 1;
+      d++;
+    }
+  }
+}
+
+/** The byte of term id at depth d, or -1 past its end. */
+function byteAt(arena: Uint8Array, offsets: Uint32Array, id: number, d: number): number {
+  const s = offsets[id] + d;
+  return s < offsets[id + 1] ? arena[s] : -1;
+}
+
+function median3(a: number, b: number, c: number): number {
+  return a < b ? (b < c ? b : a < c ? c : a) : a < c ? a : b < c ? c : b;
+}
+
+/** ids[lo, hi), equal in their first d bytes, sorted by their bytes from d on. */
+function insertionSortByBytes(arena: Uint8Array, offsets: Uint32Array, ids: Uint32Array, lo: number, hi: number, d: number): void {
+  for (let i = lo + 1; i < hi; i++) {
+    const id = ids[i];
+    let j = i - 1;
+    while (j >= lo) {
+      const other = ids[j];
+      if (compareBytes(arena, offsets[other] + d, offsets[other + 1], arena, offsets[id] + d, offsets[id + 1]) <= 0) break;
+      ids[j + 1] = other;
+      j--;
+    }
+    ids[j + 1] = id;
+  }
+}
