@@ -9,6 +9,8 @@
  * Options: --corpora brown,synthetic  --sizes 10m[,100m,1b]  --workers N (0 = CPU count)  --memory MiB
  *          --dir DIR (corpora and outputs; default $TMPDIR/kindred-bench)  --no-reference  --no-single
  *          --reference-max-tokens N (skip the reference above this size; default 150m)
+ *          --huge-pages (one more kindred build, all workers, with GLIBC_TUNABLES=glibc.malloc.hugetlb=1:
+ *          malloc's memory in transparent huge pages where the kernel gives them on request; README "Speed")
  * Settings: symmetric window 5, harmonic weighting, minimum count 5, PPMI with smoothing 0.75, L2 rows.
  */
 import { execFileSync, spawnSync } from 'node:child_process';
@@ -23,7 +25,7 @@ const TIME = '/usr/bin/time';
 
 function parseArgs(argv) {
   const o = { corpora: ['brown', 'synthetic'], sizes: ['10m'], workers: 0, memory: 2048, dir: path.join(os.tmpdir(), 'kindred-bench'),
-    reference: true, single: true, referenceMaxTokens: 150e6 };
+    reference: true, single: true, hugePages: false, referenceMaxTokens: 150e6 };
   for (let i = 0; i < argv.length; i++) {
     const a = argv[i];
     const next = () => argv[++i];
@@ -34,6 +36,7 @@ function parseArgs(argv) {
     else if (a === '--dir') o.dir = path.resolve(next());
     else if (a === '--no-reference') o.reference = false;
     else if (a === '--no-single') o.single = false;
+    else if (a === '--huge-pages') o.hugePages = true;
     else if (a === '--reference-max-tokens') o.referenceMaxTokens = tokensOf(next());
     else throw new Error(`unknown option ${a} (see the header of scripts/bench/run.mjs)`);
   }
@@ -97,12 +100,19 @@ function configFor(o, file, workers) {
   };
 }
 
-function runKindred(o, name, file, workers) {
+/** The environment that asks glibc's malloc for transparent huge pages (--huge-pages). */
+function hugePagesEnv() {
+  const tunables = [process.env.GLIBC_TUNABLES, 'glibc.malloc.hugetlb=1'].filter(Boolean).join(':');
+  return { ...process.env, GLIBC_TUNABLES: tunables };
+}
+
+function runKindred(o, name, file, workers, hugePages = false) {
   const cfgFile = path.join(o.dir, `${name}-w${workers}.json`);
   writeFileSync(cfgFile, JSON.stringify(configFor(o, file, workers), null, 2));
-  const out = path.join(o.dir, `out-${name}-w${workers}`);
+  const out = path.join(o.dir, `out-${name}-w${workers}${hugePages ? '-huge' : ''}`);
   for (const p of [out, `${out}.kindred`]) rmSync(p, { recursive: true, force: true });
-  const r = timed(`kindred (${workers || 'all'} workers)`, process.execPath, [path.join(repoRoot, 'dist', 'cli', 'main.js'), 'build', cfgFile, '--out', out]);
+  const r = timed(`kindred (${workers || 'all'} workers${hugePages ? ', huge pages' : ''})`, process.execPath,
+    [path.join(repoRoot, 'dist', 'cli', 'main.js'), 'build', cfgFile, '--out', out], hugePages ? hugePagesEnv() : process.env);
   let manifest = null;
   try {
     manifest = JSON.parse(readFileSync(path.join(out, 'manifest.json'), 'utf8'));
@@ -144,6 +154,7 @@ function main() {
     const words = Number(wc.stdout.trim().split(/\s+/)[0]);
     const kindred = runKindred(o, name, file, o.workers);
     const single = o.single && os.availableParallelism() > 1 && o.workers !== 1 ? runKindred(o, name, file, 1) : null;
+    const huge = o.hugePages ? runKindred(o, name, file, o.workers, true) : null;
     const tokens = kindred.tokens;
     const ref = o.reference && kindred.manifest && tokens <= o.referenceMaxTokens ? runReference(o, name, file, kindred.manifest.config) : null;
     const add = (tool, r) => rows.push({
@@ -152,6 +163,7 @@ function main() {
     });
     add(`kindred build (workers=${o.workers || os.availableParallelism()})`, kindred);
     if (single) add('kindred build (workers=1)', single);
+    if (huge) add(`kindred build (workers=${o.workers || os.availableParallelism()}, glibc.malloc.hugetlb=1)`, huge);
     if (ref) add('numpy/scipy reference', ref);
     add('wc -w', wc);
     results.push({ name, file, bytes, words, tokens, kindredStages: kindred.stages, singleStages: single?.stages ?? null,
