@@ -131,7 +131,7 @@ export function mergeTermCounts(partials: VocabularyPartial[]): MergedTerms {
     for (let i = 0; i < p.order.length; i++) ids[p.order[i]] = i;
     return ids;
   });
-  let listOf = partials.map((_, m) => m);
+  const listOf = partials.map((_, m) => m);
   while (lists.length > 1) {
     const next: SortedTerms[] = [];
     const maps: Int32Array[] = [];
@@ -150,6 +150,7 @@ export function mergeTermCounts(partials: VocabularyPartial[]): MergedTerms {
     lists = next;
   }
   const only = lists[0] ?? { terms: { arena: new Uint8Array(0), offsets: new Uint32Array(1) }, order: null, counts: new Float64Array(0), docFreqs: new Uint32Array(0) };
+  // a mapper alone (one thread): its terms put in order, position i becoming merged id i, as mergedIds has them
   const sorted = only.order === null ? only : mergeTwo(only, null).merged;
   return { terms: sorted.terms, size: sorted.counts.length, counts: sorted.counts, docFreqs: sorted.docFreqs, mergedIds, tokens };
 }
