@@ -11,7 +11,7 @@ import { partitionRows } from './count/partition.js';
 import { weightShards } from './weight/stage.js';
 import { partFileName } from './store/shards.js';
 import type { FileChecksum } from './store/arrow-sink.js';
-import { readVocabulary, writeVocabulary, type Vocabulary } from './store/vocab-file.js';
+import { readVocabulary, writeVocabulary } from './store/vocab-file.js';
 import { describeWriteFailure, wrapWriteError } from './store/atomic.js';
 import { sha256File, sha256Text } from './store/checksum.js';
 import { acquireBuildLock } from './store/lock.js';

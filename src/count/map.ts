@@ -60,7 +60,7 @@ export class VocabularyMapper {
   private stream: TokenStreamWriter | null = null;
   private streams = 0;
 
-  private constructor(private readonly setup: VocabularySetup, private readonly tokenizer: ByteTokenizer) {
+  private constructor(private readonly setup: VocabularySetup, tokenizer: ByteTokenizer) {
     const add: TokenSink = (bytes, start, end, hash) => {
       const id = this.table.internHashed(bytes, start, end, hash);
       if (id === this.counts.length) this.grow();

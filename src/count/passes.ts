@@ -202,11 +202,6 @@ function mergeTwo(a: SortedTerms, b: SortedTerms | null): { merged: SortedTerms;
   return { merged, aIds, bIds };
 }
 
-/** to[at, at + end - start) = from[start, end). */
-function copyBytes(from: Uint8Array, start: number, end: number, to: Uint8Array, at: number): void {
-  for (let i = start; i < end; i++) to[at + i - start] = from[i];
-}
-
 /**
  * The merged ids of the terms kept by count and document frequency, as many as the vocabulary holds, in the
  * vocabulary's order (sortKept).
