@@ -84,6 +84,22 @@ export interface MergeResult {
  */
 const WEIGHT_BLOCK_ENTRIES = 1 << 13;
 
+/** The end of the run of entries from i on (before n) that share entry i's row. */
+function rowRunEnd(rows: Uint32Array, i: number, n: number): number {
+  const r = rows[i];
+  let end = i + 1;
+  while (end < n && rows[end] === r) end++;
+  return end;
+}
+
+/** Copies columns and values / divisor of entries [from, from + m) to `at`. */
+function copyCounts(cols: Uint32Array, values: Float64Array, from: number, m: number, divisor: number, toCols: Uint32Array, toValues: Float64Array, at: number): void {
+  for (let i = 0; i < m; i++) {
+    toCols[at + i] = cols[from + i];
+    toValues[at + i] = values[from + i] / divisor;
+  }
+}
+
 /** Count rows, given in order, weighted and normalized in blocks of complete rows into a shard. */
 class WeightedRows {
   private readonly writer: ShardWriter;
@@ -109,22 +125,48 @@ class WeightedRows {
 
   /** Adds count (row r, col c); rows ascending, columns ascending within a row. */
   add(r: number, c: number, count: number): void {
-    if (this.rows === 0 || r !== this.firstRow + this.rows - 1) {
-      if (this.fill >= WEIGHT_BLOCK_ENTRIES) this.flush();
-      if (this.rows === 0) this.firstRow = r;
-      // rows with no entry in between stay empty
-      while (this.firstRow + this.rows <= r) {
-        if (this.rows + 1 >= this.indptr.length) this.indptr = grow(this.indptr, new Uint32Array(this.indptr.length * 2));
-        this.indptr[++this.rows] = this.fill;
-      }
-    }
-    if (this.fill === this.cols.length) {
-      this.cols = grow(this.cols, new Uint32Array(this.cols.length * 2));
-      this.values = grow(this.values, new Float64Array(this.values.length * 2));
-    }
+    if (this.rows === 0 || r !== this.firstRow + this.rows - 1) this.openRow(r);
+    if (this.fill === this.cols.length) this.reserve(this.fill + 1);
     this.cols[this.fill] = c;
     this.values[this.fill++] = count;
     this.indptr[this.rows] = this.fill;
+  }
+
+  /**
+   * Adds counts (rows[i], cols[i], values[i] / divisor) for i in [0, n), in the order of add(), a row's run of
+   * entries at a time.
+   */
+  addColumns(rows: Uint32Array, cols: Uint32Array, values: Float64Array, n: number, divisor: number): void {
+    for (let i = 0; i < n;) {
+      const r = rows[i];
+      const end = rowRunEnd(rows, i, n);
+      if (this.rows === 0 || r !== this.firstRow + this.rows - 1) this.openRow(r);
+      const m = end - i;
+      if (this.fill + m > this.cols.length) this.reserve(this.fill + m);
+      copyCounts(cols, values, i, m, divisor, this.cols, this.values, this.fill);
+      this.fill += m;
+      this.indptr[this.rows] = this.fill;
+      i = end;
+    }
+  }
+
+  /** Starts row r (after the block's last row), first handing the block to the weighting when it is big enough. */
+  private openRow(r: number): void {
+    if (this.fill >= WEIGHT_BLOCK_ENTRIES) this.flush();
+    if (this.rows === 0) this.firstRow = r;
+    // rows with no entry in between stay empty
+    while (this.firstRow + this.rows <= r) {
+      if (this.rows + 1 >= this.indptr.length) this.indptr = grow(this.indptr, new Uint32Array(this.indptr.length * 2));
+      this.indptr[++this.rows] = this.fill;
+    }
+  }
+
+  /** Room for n entries. */
+  private reserve(n: number): void {
+    let size = this.cols.length;
+    while (size < n) size *= 2;
+    this.cols = grow(this.cols, new Uint32Array(size));
+    this.values = grow(this.values, new Float64Array(size));
   }
 
   private flush(): void {
@@ -150,9 +192,9 @@ class WeightedRows {
 }
 
 /**
- * The state of a part's mirrored merge between batches: the Rᵀ entries of rows [a, b) (row w's at cols / vals
- * [starts[w - a], starts[w - a + 1])), the row being merged (w) and its next Rᵀ entry (q, up to qEnd); the
- * merged records (o32 / o64, k of them) handed to `put` when full; `load` holds the rows from a given row on.
+ * The state of a part's mirrored merge between steps: the Rᵀ entries of rows [a, b) (row w's at cols / vals
+ * [starts[w - a], starts[w - a + 1])), the row being merged (w) and its next Rᵀ entry (q, up to qEnd), the next
+ * record of R's batch (i); the merged cells (k of them) waiting in rows / outCols / outVals.
  */
 interface MirrorState {
   cols: Uint32Array;
@@ -164,57 +206,75 @@ interface MirrorState {
   q: number;
   qEnd: number;
   endRow: number;
-  o32: Uint32Array;
-  o64: Float64Array;
+  i: number;
+  rows: Uint32Array;
+  outCols: Uint32Array;
+  outVals: Float64Array;
   k: number;
-  put: (u32: Uint32Array, f64: Float64Array, n: number) => void;
-  load: (from: number) => void;
 }
 
-/** Writes merged record k (row r, column c, value v), handing the records to `put` when full; returns the next k. */
-function record(st: MirrorState, k: number, r: number, c: number, v: number): number {
-  const { o32, o64 } = st;
-  o32[4 * k] = r;
-  o32[4 * k + 1] = c;
-  o64[2 * k + 1] = v;
-  if (4 * (k + 1) < o32.length) return k + 1;
-  st.put(o32, o64, k + 1);
-  return 0;
-}
+/** mergeStep's outcomes: the batch is merged (at the end: every row); the output is full; rows from w need loading. */
+const STEP_DONE = 0;
+const STEP_FULL = 1;
+const STEP_LOAD = 2;
 
 /**
- * Merges a batch of R's records (rows ascending, columns ascending within a row) with the Rᵀ entries of their
- * rows, summing a cell in both; rows of Rᵀ with no record of R in between are written whole. A batch of no
- * records ends the merge: the rows left to endRow are written.
+ * Merges R's records from st.i of a batch (rows ascending, columns ascending within a row) with the Rᵀ entries
+ * of their rows, summing a cell in both; rows of Rᵀ with no record of R in between are written whole. At the end
+ * (`end`, no batch) the rows left to endRow are written. Stops when the output is full or the next row's Rᵀ
+ * entries are not held, and says which: the caller hands the output on or loads, and calls again. The loop calls
+ * nothing, so the rare paths are not compiled into it (V8 drops a loop's compiled code when it first meets one).
  */
-function mergeMirrorBatch(u32: Uint32Array, f64: Float64Array, n: number, st: MirrorState): void {
-  let { cols, vals, w, q, qEnd, k } = st;
-  // a batch of no records stands for the end: the rows left
-  const last = n === 0 ? 0 : n - 1;
-  for (let i = 0; i <= last; i++) {
-    const r = n === 0 ? st.endRow : u32[4 * i];
-    const c = n === 0 ? 0 : u32[4 * i + 1];
+function mergeStep(st: MirrorState, u32: Uint32Array, f64: Float64Array, n: number, end: boolean): number {
+  const { cols, vals, starts, a, b, endRow, rows, outCols, outVals } = st;
+  const cap = rows.length;
+  let { w, q, qEnd, k, i } = st;
+  let status = STEP_DONE;
+  while (end || i < n) {
+    const r = end ? endRow : u32[4 * i];
+    // the rest of row w, then the rows before r whole
     while (w < r) {
-      // the rest of row w, then the next row
-      for (; q < qEnd; q++) k = record(st, k, w, cols[q], vals[q]);
-      if (++w === st.endRow) break;
-      if (w === st.b) {
-        st.load(w);
-        ({ cols, vals, q, qEnd } = st);
-      } else {
-        q = st.starts[w - st.a];
-        qEnd = st.starts[w - st.a + 1];
+      while (q < qEnd && k < cap) {
+        rows[k] = w;
+        outCols[k] = cols[q];
+        outVals[k++] = vals[q++];
       }
+      if (q < qEnd) {
+        status = STEP_FULL;
+        break;
+      }
+      if (++w === endRow) break;
+      if (w === b) {
+        status = STEP_LOAD;
+        break;
+      }
+      q = starts[w - a];
+      qEnd = starts[w - a + 1];
     }
-    if (n === 0) break;
+    if (status !== STEP_DONE || end) break;
+    const c = u32[4 * i + 1];
+    while (q < qEnd && cols[q] < c && k < cap) {
+      rows[k] = r;
+      outCols[k] = cols[q];
+      outVals[k++] = vals[q++];
+    }
+    if (k === cap) {
+      status = STEP_FULL;
+      break;
+    }
     let v = f64[2 * i + 1];
-    for (; q < qEnd && cols[q] <= c; q++) {
-      if (cols[q] === c) v += vals[q];
-      else k = record(st, k, r, cols[q], vals[q]);
-    }
-    k = record(st, k, r, c, v);
+    if (q < qEnd && cols[q] === c) v += vals[q++];
+    rows[k] = r;
+    outCols[k] = c;
+    outVals[k++] = v;
+    i++;
   }
-  Object.assign(st, { w, q, qEnd, k });
+  st.w = w;
+  st.q = q;
+  st.qEnd = qEnd;
+  st.k = k;
+  st.i = i;
+  return status;
 }
 
 /**
@@ -248,6 +308,17 @@ function placeMirror(segments: MirrorInput['segments'], bufferRecords: number, a
   }
   for (let k = 0; k < span; k++) {
     if (next[k] !== starts[k + 1]) throw new Error(`mirror runs hold ${next[k] - starts[k]} entries of row ${a + k}, the count tasks counted ${starts[k + 1] - starts[k]} (a bug)`);
+  }
+}
+
+/** Adds cells (rows[i], cols[i], vals[i]), i in [0, n), to the part's row sums and nonzeros and its column sums. */
+function addSums(rows: Uint32Array, cols: Uint32Array, vals: Float64Array, n: number, firstRow: number, rowSums: Float64Array, rowNnz: Uint32Array, colSums: Float64Array): void {
+  for (let i = 0; i < n; i++) {
+    const r = rows[i] - firstRow;
+    const v = vals[i];
+    rowSums[r] += v;
+    rowNnz[r]++;
+    colSums[cols[i]] += v;
   }
 }
 
@@ -298,8 +369,16 @@ export class MergeMapper {
           weighted?.add(r, c, v / scale);
         }
       };
-      if (task.mirror !== null) this.mirrored(task, task.mirror, put);
-      else for (const f of task.runs) readRunBatches(f, bufferRecords, put);
+      if (task.mirror !== null) {
+        // merged cells come in columns, a buffer at a time
+        this.mirrored(task, task.mirror, (rows, cols, vals, n) => {
+          addSums(rows, cols, vals, n, firstRow, rowSums, rowNnz, colSums);
+          writer.appendColumns(rows, cols, vals, n, scale);
+          weighted?.addColumns(rows, cols, vals, n, scale);
+        });
+      } else {
+        for (const f of task.runs) readRunBatches(f, bufferRecords, put);
+      }
       for (let i = 0; i < rowSums.length; i++) total += rowSums[i];
     } else {
       if (weighted !== null) throw new Error('weighting while merging needs disjoint runs');
@@ -334,32 +413,50 @@ export class MergeMapper {
    * by row (a counting sort: the mirror runs come in ascending row order of R, so each row of Rᵀ comes out in
    * ascending column order). A cell in both is one sum; the sums are of integers, so exact.
    */
-  private mirrored(task: MergeTask, mirror: MirrorInput, put: (u32: Uint32Array, f64: Float64Array, n: number) => void): void {
+  private mirrored(task: MergeTask, mirror: MirrorInput, consume: (rows: Uint32Array, cols: Uint32Array, vals: Float64Array, n: number) => void): void {
     const { bufferRecords, mirrorEntries } = this.setup;
     const { firstRow, endRow } = task;
     if (firstRow === endRow) return;
     const out = takeBuffer(16 * bufferRecords);
     const st: MirrorState = {
-      cols: new Uint32Array(0), vals: new Float64Array(0), starts: new Int32Array(1), a: firstRow, b: firstRow, w: firstRow, q: 0, qEnd: 0, endRow,
-      o32: new Uint32Array(out.buffer, out.byteOffset, 4 * bufferRecords), o64: new Float64Array(out.buffer, out.byteOffset, 2 * bufferRecords), k: 0,
-      put,
-      load: (from: number): void => {
-        // rows [from, b) whose Rᵀ entries fit the buffers (at least one row)
-        let b = from;
-        let total = 0;
-        while (b < endRow && (b === from || total + mirror.nnz[b - firstRow] <= mirrorEntries)) total += mirror.nnz[b++ - firstRow];
-        const starts = new Int32Array(b - from + 1);
-        for (let w = from; w < b; w++) starts[w - from + 1] = starts[w - from] + mirror.nnz[w - firstRow];
-        const { cols, vals } = this.mirrorArrays(total);
-        placeMirror(mirror.segments, bufferRecords, from, b, starts, cols, vals);
-        Object.assign(st, { cols, vals, starts, a: from, b, q: starts[0], qEnd: starts[1] });
-      },
+      cols: new Uint32Array(0), vals: new Float64Array(0), starts: new Int32Array(1), a: firstRow, b: firstRow, w: firstRow, q: 0, qEnd: 0, endRow, i: 0,
+      outVals: new Float64Array(out.buffer, out.byteOffset, bufferRecords),
+      rows: new Uint32Array(out.buffer, out.byteOffset + 8 * bufferRecords, bufferRecords),
+      outCols: new Uint32Array(out.buffer, out.byteOffset + 12 * bufferRecords, bufferRecords),
+      k: 0,
+    };
+    // rows [from, b) whose Rᵀ entries fit the buffers (at least one row)
+    const load = (from: number): void => {
+      let b = from;
+      let total = 0;
+      while (b < endRow && (b === from || total + mirror.nnz[b - firstRow] <= mirrorEntries)) total += mirror.nnz[b++ - firstRow];
+      const starts = new Int32Array(b - from + 1);
+      for (let w = from; w < b; w++) starts[w - from + 1] = starts[w - from] + mirror.nnz[w - firstRow];
+      const { cols, vals } = this.mirrorArrays(total);
+      placeMirror(mirror.segments, bufferRecords, from, b, starts, cols, vals);
+      Object.assign(st, { cols, vals, starts, a: from, b, q: starts[0], qEnd: starts[1] });
+    };
+    const merge = (u32: Uint32Array, f64: Float64Array, n: number, end: boolean): void => {
+      st.i = 0;
+      for (;;) {
+        const status = mergeStep(st, u32, f64, n, end);
+        if (status === STEP_DONE) return;
+        if (status === STEP_LOAD) {
+          load(st.w);
+        } else {
+          consume(st.rows, st.outCols, st.outVals, st.k);
+          st.k = 0;
+        }
+      }
     };
     try {
-      st.load(firstRow);
-      for (const f of task.runs) readRunBatches(f, bufferRecords, (u32, f64, n) => mergeMirrorBatch(u32, f64, n, st));
-      mergeMirrorBatch(new Uint32Array(0), new Float64Array(0), 0, st);
-      put(st.o32, st.o64, st.k);
+      load(firstRow);
+      // a first call that merges nothing, so that the code after mergeStep's loop has run before V8 compiles the
+      // loop (on-stack, while it runs): otherwise every return from the compiled loop drops its code
+      merge(new Uint32Array(0), new Float64Array(0), 0, false);
+      for (const f of task.runs) readRunBatches(f, bufferRecords, (u32, f64, n) => merge(u32, f64, n, false));
+      merge(new Uint32Array(0), new Float64Array(0), 0, true);
+      consume(st.rows, st.outCols, st.outVals, st.k);
     } finally {
       giveBuffer(out);
     }
