@@ -77,14 +77,6 @@ function addToColumns(cols: Uint32Array, sums: Float64Array, colSums: Float64Arr
 /** Records a thread holds per part before writing them to its mirror file. */
 const MIRROR_BUFFER_RECORDS = 1 << 12;
 
-/** Writes row r's cells (columns cols, values sums[col]) as (col, r, value), bound for the part of row col. */
-function mirrorRow(r: number, cols: Uint32Array, sums: Float64Array, partOf: Int32Array, writer: MirrorWriter): void {
-  for (let i = 0; i < cols.length; i++) {
-    const c = cols[i];
-    writer.append(partOf[c], c, r, sums[c]);
-  }
-}
-
 /** A task's run file and the sums of its rows; every mapper's column sums (and mirror file). */
 class RowOutput {
   private readonly run: RunWriter;
@@ -109,7 +101,7 @@ class RowOutput {
     this.rowSums[r - this.task.firstRow] = addToColumns(cols, sums, this.colSums, this.colNnz);
     this.rowNnz[r - this.task.firstRow] = cols.length;
     this.run.appendRow(r, cols, sums);
-    if (this.mirror !== null) mirrorRow(r, cols, sums, this.partOf!, this.mirror);
+    this.mirror?.appendRow(r, cols, sums, this.partOf!);
   }
 
   /** One cell of row r, rows and columns in ascending order. */

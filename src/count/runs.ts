@@ -84,6 +84,26 @@ export interface MirrorSegment {
  * hold their rows, kept in a small buffer per part and appended to the one file in segments of one part each.
  * `endTask` writes out every buffer and returns the segments written since the last call, in write order.
  */
+/**
+ * Copies cells i, i + 1 … of a row to their parts' buffers (MirrorWriter.appendRow) until the end of the row or
+ * until a part's buffer is full; returns the index after the last cell copied.
+ */
+function fillParts(
+  u32: Uint32Array, f64: Float64Array, fill: Int32Array, perPart: number, partOf: Int32Array,
+  r: number, cols: Uint32Array, sums: Float64Array, i: number,
+): number {
+  for (; i < cols.length; i++) {
+    const c = cols[i];
+    const p = partOf[c];
+    const at = p * perPart + fill[p];
+    u32[4 * at] = c;
+    u32[4 * at + 1] = r;
+    f64[2 * at + 1] = sums[c];
+    if (++fill[p] === perPart) return i + 1;
+  }
+  return i;
+}
+
 export class MirrorWriter {
   private readonly fd: number;
   private readonly buf: Buffer;
@@ -114,6 +134,19 @@ export class MirrorWriter {
     this.u32[4 * i + 1] = col;
     this.f64[2 * i + 1] = value;
     if (++this.fill[part] === this.perPart) this.flush(part);
+  }
+
+  /**
+   * Appends row r's cells (columns cols, values sums[col]) as (col, r, value), each bound for the part of its
+   * column (partOf). The copying loop stops when a part's buffer is full; it is written out here, between calls,
+   * so that the loop never meets the write.
+   */
+  appendRow(r: number, cols: Uint32Array, sums: Float64Array, partOf: Int32Array): void {
+    for (let i = 0; i < cols.length;) {
+      i = fillParts(this.u32, this.f64, this.fill, this.perPart, partOf, r, cols, sums, i);
+      const last = partOf[cols[i - 1]];
+      if (this.fill[last] === this.perPart) this.flush(last);
+    }
   }
 
   private flush(part: number): void {
