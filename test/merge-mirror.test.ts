@@ -39,7 +39,8 @@ interface Written {
 
 /**
  * Writes R as the count tasks do: rows in tasks of `rowsPerTask`, each task's rows to its own run (row, col,
- * value), and every cell as (col, row, value) to one mirror file bound for part 0, in small segments.
+ * value), and every cell as (col, row, value) to one mirror file bound for part 0, in segments of 7 records
+ * (so that a row's cells fill the buffer many times).
  */
 function writeR(dir: string, R: Float64Array[], rowsPerTask: number): Written {
   const n = R.length;
@@ -48,16 +49,20 @@ function writeR(dir: string, R: Float64Array[], rowsPerTask: number): Written {
   const mirror = new MirrorWriter(mirrorFile, 1, 7);
   const segments: Written['segments'] = [];
   const nnz = new Uint32Array(n);
+  const partOf = new Int32Array(n);
   for (let first = 0; first < n; first += rowsPerTask) {
     const file = path.join(dir, `run-${first}.bin`);
     const run = new RunWriter(file);
     for (let w = first; w < Math.min(n, first + rowsPerTask); w++) {
+      const cols: number[] = [];
       for (let c = 0; c < n; c++) {
         if (R[w][c] === 0) continue;
         run.append(w, c, R[w][c]);
-        mirror.append(0, c, w, R[w][c]);
+        cols.push(c);
         nnz[c]++;
       }
+      // as the count tasks write a row: its columns, and its values by column
+      mirror.appendRow(w, Uint32Array.from(cols), R[w], partOf);
     }
     run.close();
     runs.push(file);

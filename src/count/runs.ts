@@ -80,11 +80,6 @@ export interface MirrorSegment {
 }
 
 /**
- * One thread's mirror file (mirrored counting, passes.ts): records (row, col, value) bound for the parts that
- * hold their rows, kept in a small buffer per part and appended to the one file in segments of one part each.
- * `endTask` writes out every buffer and returns the segments written since the last call, in write order.
- */
-/**
  * Copies cells i, i + 1 … of a row to their parts' buffers (MirrorWriter.appendRow) until the end of the row or
  * until a part's buffer is full; returns the index after the last cell copied.
  */
@@ -104,6 +99,11 @@ function fillParts(
   return i;
 }
 
+/**
+ * One thread's mirror file (mirrored counting, passes.ts): records (row, col, value) bound for the parts that
+ * hold their rows, kept in a small buffer per part and appended to the one file in segments of one part each.
+ * `endTask` writes out every buffer and returns the segments written since the last call, in write order.
+ */
 export class MirrorWriter {
   private readonly fd: number;
   private readonly buf: Buffer;
@@ -126,14 +126,6 @@ export class MirrorWriter {
       giveBuffer(this.buf);
       throw wrapWriteError(e, file);
     }
-  }
-
-  append(part: number, row: number, col: number, value: number): void {
-    const i = part * this.perPart + this.fill[part];
-    this.u32[4 * i] = row;
-    this.u32[4 * i + 1] = col;
-    this.f64[2 * i + 1] = value;
-    if (++this.fill[part] === this.perPart) this.flush(part);
   }
 
   /**
