@@ -217,6 +217,9 @@ interface MirrorState {
 const STEP_DONE = 0;
 const STEP_FULL = 1;
 const STEP_LOAD = 2;
+/** A batch of no records, for mergeStep's empty and final calls. */
+const NO_RECORDS32 = new Uint32Array(0);
+const NO_RECORDS64 = new Float64Array(0);
 
 /**
  * Merges R's records from st.i of a batch (rows ascending, columns ascending within a row) with the Rᵀ entries
@@ -455,9 +458,9 @@ export class MergeMapper {
       // compiles the loop on-stack, while it runs: V8 records feedback only once a function has run some 4 KB of
       // bytecode, and code compiled on-stack with none there is reentered and dropped at every return (about 100
       // times a build on Brown x10 with 2 workers; 2 with these calls)
-      for (let warm = 0; warm < 200; warm++) merge(new Uint32Array(0), new Float64Array(0), 0, false);
+      for (let warm = 0; warm < 200; warm++) merge(NO_RECORDS32, NO_RECORDS64, 0, false);
       for (const f of task.runs) readRunBatches(f, bufferRecords, (u32, f64, n) => merge(u32, f64, n, false));
-      merge(new Uint32Array(0), new Float64Array(0), 0, true);
+      merge(NO_RECORDS32, NO_RECORDS64, 0, true);
       consume(st.rows, st.outCols, st.outVals, st.k);
     } finally {
       giveBuffer(out);
