@@ -35,6 +35,8 @@ export interface BuildOptions {
   chunkTokens?: number;
   /** Mirror entries a merge thread holds at once; derived from the count stage's memory unless set (tests force many row ranges with it). */
   mirrorEntries?: number;
+  /** Most terms of a vocabulary thread's table before it is written to a run; derived from memoryMiB unless set (tests force runs with it). */
+  termLimit?: number;
   /** Hears one-line notes (a stale lock taken over, a damaged stage output redone); default: stderr. */
   notify?: (message: string) => void;
 }
@@ -207,7 +209,7 @@ async function buildAndPublish(
   const cfg = loaded.config;
   const files = await resolveInputs(cfg.input.paths, loaded.baseDir);
   await createTokenizer(cfg.tokenize, loaded.baseDir); // a bad stopword file fails here, before any work
-  const exec: CountExec = { baseDir: loaded.baseDir, workers: resolveWorkers(cfg.workers) };
+  const exec: CountExec = { baseDir: loaded.baseDir, workers: resolveWorkers(cfg.workers), termLimit: opts.termLimit };
   const stopwordsHash = cfg.tokenize.stopwords === null ? null : await sha256File(path.resolve(loaded.baseDir, cfg.tokenize.stopwords));
   const stages = new StageRunner(area, progress, notify);
 

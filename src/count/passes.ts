@@ -13,7 +13,8 @@ import type { Vocabulary } from '../store/vocab-file.js';
 import { exactWeights, windowWeights } from './cooccur.js';
 import { RunReader, mergeSources, MAX_ROW_WISE_COLUMNS } from './runs.js';
 import type { MergeResult, MergeTask } from './merge-map.js';
-import { TermTable, compareBytes, type TermBytes } from './term-table.js';
+import { compareBytes, type TermBytes } from './term-table.js';
+import { mergeTermRuns, type MergeInput } from './term-runs.js';
 import type { RowRange } from './partition.js';
 import {
   ChunkMemory, chunkOf, chunkSource, narrowIds, planChunks, planSlices, sharedInt32, streamLengths, type Chunk, type ChunkIds, type ChunkSlice, type CorpusStreams, type SliceCounts,
@@ -26,6 +27,8 @@ import { gatherCapacity, gatherTasks, gatherWidth, groupLayout, planGroups, type
 export interface CountExec {
   baseDir: string;
   workers: number;
+  /** Most terms of a vocabulary mapper's table before it is written to a run; derived from memoryMiB unless set (tests). */
+  termLimit?: number;
 }
 
 /** Pass 1's result: the vocabulary, the corpus size, and the token streams pass 2 counts. */
@@ -42,26 +45,76 @@ function splitBytes(totalBytes: number, workers: number): number {
   return Math.max(1 << 20, Math.ceil(totalBytes / (workers * 4)));
 }
 
+/** Share of the memory budget the vocabulary pass's term tables take, over all threads. */
+const TERM_SHARE = 0.5;
+/**
+ * Bytes a term takes in a mapper's arrays at their fullest (term-table.ts, map.ts): start and hash 8, two hash
+ * slots 8, count 8, document frequency and last document 8, flags 1, and the byte order when it hands them over 4.
+ */
+const BYTES_PER_TERM = 40;
+
+/**
+ * A vocabulary mapper's table limits for a memory budget: the most terms (a power of two, so no array grows past
+ * it) in three quarters of the mapper's share, the term bytes (a power of two too) in the rest.
+ */
+export function termTableLimits(memoryMiB: number, workers: number, termLimit?: number): { termLimit: number; arenaLimit: number } {
+  const share = Math.floor((memoryMiB * 1024 * 1024 * TERM_SHARE) / Math.max(1, workers));
+  let terms = 256;
+  while (BYTES_PER_TERM * terms * 2 <= share * 0.75) terms *= 2;
+  let arena = 2048;
+  while (arena * 2 <= share - BYTES_PER_TERM * terms) arena *= 2;
+  return { termLimit: termLimit ?? terms, arenaLimit: arena };
+}
+
+/** Input splits of the passes that read the text. */
+function splitsOf(files: string[], cfg: KindredConfig, totalBytes: number, workers: number) {
+  return planSplits(files, cfg.input, splitBytes(totalBytes, workers));
+}
+
 /** Reads and tokenizes the input on the threads: term counts by term bytes, and a token stream per split. */
 async function vocabularyPass(
-  stage: string, files: string[], cfg: KindredConfig, exec: CountExec, progress: Progress, totalBytes: number, streamDir: string,
+  files: string[], cfg: KindredConfig, exec: CountExec, progress: Progress, totalBytes: number, streamDir: string,
 ): Promise<MapRun<'vocabulary'>> {
-  const splits = planSplits(files, cfg.input, splitBytes(totalBytes, exec.workers));
-  progress.start(stage, totalBytes, 'B');
+  const splits = splitsOf(files, cfg, totalBytes, exec.workers);
+  const limits = termTableLimits(cfg.memoryMiB, exec.workers, exec.termLimit);
+  progress.start('vocabulary', totalBytes, 'B');
   let done = 0;
-  return runMap('vocabulary', (mapper) => ({ input: cfg.input, tokenize: cfg.tokenize, baseDir: exec.baseDir, streamDir, mapper }), splits, exec.workers, (n) => progress.update((done += n)));
+  return runMap('vocabulary', (mapper) => ({ input: cfg.input, tokenize: cfg.tokenize, baseDir: exec.baseDir, streamDir, mapper, ...limits }), splits, exec.workers, (n) => progress.update((done += n)));
+}
+
+/**
+ * Token streams of a known vocabulary (ids of its terms in order): the input read and tokenized again on the
+ * threads, each token looked up in the vocabulary's terms (TokenMapper).
+ */
+async function vocabularyStreams(
+  files: string[], cfg: KindredConfig, exec: CountExec, vocabulary: TermBytes, progress: Progress, totalBytes: number, streamDir: string,
+): Promise<CorpusStreams> {
+  const splits = splitsOf(files, cfg, totalBytes, exec.workers);
+  progress.start('tokens', totalBytes, 'B');
+  let done = 0;
+  const run = await runMap('tokens', (mapper) => ({ input: cfg.input, tokenize: cfg.tokenize, baseDir: exec.baseDir, streamDir, mapper, vocabulary }), splits, exec.workers, (n) => progress.update((done += n)));
+  // the streams hold final ids already, and the vocabulary's size for a term not in it
+  const n = vocabulary.offsets.length - 1;
+  const identity = sharedInt32(n + 1);
+  for (let i = 0; i < n; i++) identity[i] = i;
+  identity[n] = -1;
+  progress.end(`${run.results.length} token streams (${run.threads} thread${run.threads > 1 ? 's' : ''})`);
+  return { refs: run.results, finalIds: Array.from({ length: run.threads }, () => identity) };
 }
 
 /**
  * Pass 1: term counts and document frequencies over the whole corpus, on worker threads; each split's tokens
- * are also written to streamDir as token streams, which pass 2 then counts instead of reading the input.
+ * are also written to streamDir as token streams, which pass 2 then counts instead of reading the input. When
+ * a thread's term table filled its share of the memory budget, its terms went to runs on disk (decision 35):
+ * the runs are merged keeping only the vocabulary's terms, and the token streams are made by a second reading.
  */
 export async function countTerms(
   files: string[], cfg: KindredConfig, exec: CountExec, stats: IngestStats, progress: Progress, totalBytes: number,
   streamDir: string,
 ): Promise<TermsResult> {
-  const run = await vocabularyPass('vocabulary', files, cfg, exec, progress, totalBytes, streamDir);
+  const run = await vocabularyPass(files, cfg, exec, progress, totalBytes, streamDir);
   for (const r of run.results) addIngestStats(stats, r.stats);
+  if (run.partials.some((p) => p.runs.length > 0)) return countTermsSpilled(files, cfg, exec, stats, progress, totalBytes, streamDir, run);
 
   // the loops over terms are functions of their own (here and in countPairs): an async function that holds
   // them is compiled whole, again at each of its loops, by the optimizing compiler, which costs more CPU
@@ -69,7 +122,7 @@ export async function countTerms(
   const merged = mergeTermCounts(run.partials);
   const { tokens } = merged;
   const kept = keptTerms(merged, cfg.vocabulary);
-  const refs = run.results.map((r) => r.stream!);
+  const refs = run.results.map((r) => r.stream);
   // the threads wait while this thread sorts and writes the vocabulary: they touch the count pass's memory meanwhile
   prepareCountMemory(cfg, streamLengths({ refs, finalIds: [] }), kept.length, exec.workers);
   const { vocab, finalOfMerged } = keptVocabulary(merged, kept);
@@ -78,13 +131,49 @@ export async function countTerms(
   const finalIds = merged.mergedIds.map((ids) => mapShared(ids, finalOfMerged));
   const streams = { refs, finalIds };
   prepareChunk(streams);
-  progress.end(`${stats.documents} documents, ${tokens} tokens, ${merged.size} distinct terms, ${size} kept (${run.threads} thread${run.threads > 1 ? 's' : ''})`);
+  progress.end(vocabularyLine(stats, tokens, merged.size, size, run.threads));
   return {
     vocab,
     counter: { tokens, size: merged.size },
     threads: run.threads,
     streams,
   };
+}
+
+function vocabularyLine(stats: IngestStats, tokens: number, distinct: number, kept: number, threads: number): string {
+  return `${stats.documents} documents, ${tokens} tokens, ${distinct} distinct terms, ${kept} kept (${threads} thread${threads > 1 ? 's' : ''})`;
+}
+
+/** countTerms when a term table filled: the runs merged, and token streams made again of the kept terms. */
+async function countTermsSpilled(
+  files: string[], cfg: KindredConfig, exec: CountExec, stats: IngestStats, progress: Progress, totalBytes: number,
+  streamDir: string, run: MapRun<'vocabulary'>,
+): Promise<TermsResult> {
+  prepared = null;
+  // the streams some threads wrote before (or without) filling a table are not used
+  for (const r of run.results) rmSync(r.stream.file, { force: true });
+  let tokens = 0;
+  for (const p of run.partials) tokens += p.tokens;
+  const inputs: MergeInput[] = run.partials.flatMap((p, m): MergeInput[] =>
+    p.runs.length > 0 ? p.runs.map((r) => ({ mapper: m, epoch: r.epoch, run: r, table: null })) : [{ mapper: m, epoch: 0, run: null, table: p }]);
+  const runs = inputs.filter((i) => i.run !== null).length;
+  const { terms, counts, docFreqs, distinct } = mergeTermRuns(inputs, cfg.vocabulary.minCount, cfg.vocabulary.minDocFreq);
+  // the merge kept only terms that pass the count filters: keptTerms orders them and applies maxSize
+  const merged: MergedTerms = { terms, size: counts.length, counts, docFreqs, mergedIds: [], tokens };
+  const kept = keptTerms(merged, cfg.vocabulary);
+  const { vocab } = keptVocabulary(merged, kept);
+  progress.end(`${vocabularyLine(stats, tokens, distinct, vocab.terms.length, run.threads)}; term tables written to ${runs} runs`);
+  const streams = await vocabularyStreams(files, cfg, exec, termBytesOf(terms, kept), progress, totalBytes, streamDir);
+  return { vocab, counter: { tokens, size: distinct }, threads: run.threads, streams };
+}
+
+/** The terms `ids` of `terms`, in that order, as term bytes. */
+function termBytesOf(terms: TermBytes, ids: readonly number[]): TermBytes {
+  const offsets = new Uint32Array(ids.length + 1);
+  for (let i = 0; i < ids.length; i++) offsets[i + 1] = offsets[i] + terms.offsets[ids[i] + 1] - terms.offsets[ids[i]];
+  const arena = new Uint8Array(offsets[ids.length]);
+  for (let i = 0; i < ids.length; i++) arena.set(terms.arena.subarray(terms.offsets[ids[i]], terms.offsets[ids[i] + 1]), offsets[i]);
+  return { arena, offsets };
 }
 
 /** The terms as UTF-8 bytes back to back, in id order. */
@@ -282,13 +371,6 @@ function mapShared(ids: Int32Array, to: Int32Array): Int32Array {
   return shared;
 }
 
-/** Each mapper's term ids to a vocabulary's (-1: not in it), by their bytes, in shared memory. */
-function findShared(table: TermTable, { arena, offsets }: TermBytes): Int32Array {
-  const ids = sharedInt32(offsets.length - 1);
-  for (let i = 0; i < offsets.length - 1; i++) ids[i] = table.find(arena, offsets[i], offsets[i + 1]);
-  return ids;
-}
-
 /** target[at + i] += source[i] for every i. */
 function addAt(target: Float64Array | Uint32Array, at: number, source: Float64Array | Uint32Array): void {
   for (let i = 0; i < source.length; i++) target[at + i] += source[i];
@@ -296,17 +378,12 @@ function addAt(target: Float64Array | Uint32Array, at: number, source: Float64Ar
 
 /**
  * Token streams for a vocabulary read from an earlier build's file (the count stage rerun without the
- * vocabulary pass): the input is read and tokenized again, each thread's term ids mapped to the
- * vocabulary's by their bytes.
+ * vocabulary pass): the input is read and tokenized again, each token looked up in the vocabulary.
  */
 export async function tokenStreams(
   files: string[], cfg: KindredConfig, exec: CountExec, vocab: Vocabulary, progress: Progress, totalBytes: number, streamDir: string,
 ): Promise<CorpusStreams> {
-  const run = await vocabularyPass('tokens', files, cfg, exec, progress, totalBytes, streamDir);
-  const table = TermTable.fromTermBytes(encodeTerms(vocab.terms));
-  const finalIds = run.partials.map((p) => findShared(table, p.terms));
-  progress.end(`${run.results.length} token streams (${run.threads} thread${run.threads > 1 ? 's' : ''})`);
-  return { refs: run.results.map((r) => r.stream!), finalIds };
+  return vocabularyStreams(files, cfg, exec, encodeTerms(vocab.terms), progress, totalBytes, streamDir);
 }
 
 /** Share of the memory budget a chunk of the corpus takes when counted (at most 4 bytes a token: its ids). */

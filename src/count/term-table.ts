@@ -27,7 +27,16 @@ export interface TermBytes {
   offsets: Uint32Array;
 }
 
+/** What internHashed returns when the term is new and the table is at its limit. */
+export const TABLE_FULL = -1;
+
 export class TermTable {
+  /**
+   * Most terms and most arena bytes the table takes (a bound on its memory, set by the vocabulary pass): a new
+   * term past either is not inserted (TABLE_FULL). With a power-of-two term limit, no array grows past it.
+   */
+  limit = Infinity;
+  arenaLimit = Infinity;
   /** Term bytes, back to back in id order. */
   arena: Uint8Array;
   arenaFill = 0;
@@ -93,7 +102,9 @@ export class TermTable {
       if (k === len) return id;
     }
     const id = this.size;
-    if (id + 1 >= this.hashes.length) this.growIds();
+    // a term alone may pass the arena's limit (an empty table takes any term)
+    if (id >= this.limit || (this.arenaFill + len > this.arenaLimit && id > 0)) return TABLE_FULL;
+    if (id >= this.hashes.length) this.growIds();
     if (this.arenaFill + len > this.arena.length) this.growArena(len);
     // byte by byte: bytes is a Buffer or a plain Uint8Array, whose subarray methods differ, and a call of
     // either would send the compiled caller back to the interpreter when the other comes
@@ -107,6 +118,14 @@ export class TermTable {
     this.size++;
     if (this.size * 2 > this.slots.length) this.rehash();
     return id;
+  }
+
+  /** Empties the table, keeping its arrays (an arena grown past its limit by one long term is made anew). */
+  clear(): void {
+    this.slots.fill(EMPTY);
+    this.size = 0;
+    this.arenaFill = 0;
+    if (this.arena.length > this.arenaLimit) this.arena = new Uint8Array(this.arenaLimit);
   }
 
   /** The term bytes of id (a view into the arena: copy before the table grows). */

@@ -4,7 +4,7 @@
  * reading and tokenizing the text a second time. The files are temporary (the work area's tmp/), 4 bytes a
  * token, written through a fixed buffer and read chunk by chunk (chunks.ts).
  */
-import { closeSync, openSync } from 'node:fs';
+import { closeSync, openSync, rmSync } from 'node:fs';
 import { wrapWriteError, writeBytesOrThrow } from '../store/atomic.js';
 import { giveBuffer, takeBuffer } from '../store/buffer-pool.js';
 
@@ -57,6 +57,16 @@ export class TokenStreamWriter {
     } finally {
       closeSync(this.fd);
       giveBuffer(this.bytes);
+    }
+  }
+
+  /** Closes the stream and removes its file (the stream is not needed, or not complete). */
+  discard(): void {
+    try {
+      closeSync(this.fd);
+    } finally {
+      giveBuffer(this.bytes);
+      rmSync(this.file, { force: true });
     }
   }
 }

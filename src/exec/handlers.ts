@@ -1,8 +1,9 @@
 /** The kinds of map task the local executor runs, and how a thread (or the main thread) starts each. */
 import type { InputSplit } from '../ingest/split.js';
 import {
-  VocabularyMapper, transferablesOf as countTransferables, type SplitResult, type VocabularyPartial, type VocabularySetup,
+  TokenMapper, VocabularyMapper, transferablesOf as countTransferables, type SplitResult, type TokenSetup, type VocabularyPartial, type VocabularySetup,
 } from '../count/map.js';
+import type { TokenStreamRef } from '../count/token-stream.js';
 import { RowsMapper, type RowsPartial, type RowsResult, type RowsSetup, type RowsTask } from '../count/rows-map.js';
 import { ChunkMapper, TouchMapper, type ChunkSetup, type ChunkTask, type TouchSetup } from '../count/chunk-map.js';
 import type { SliceCounts } from '../count/chunks.js';
@@ -19,6 +20,7 @@ export interface Mapper<Task, Result, Partial> {
 
 export interface MapKinds {
   vocabulary: { setup: VocabularySetup; task: InputSplit; result: SplitResult; partial: VocabularyPartial };
+  tokens: { setup: TokenSetup; task: InputSplit; result: TokenStreamRef; partial: Record<string, never> };
   chunk: { setup: ChunkSetup; task: ChunkTask; result: SliceCounts; partial: Record<string, never> };
   touch: { setup: TouchSetup; task: null; result: null; partial: Record<string, never> };
   gather: { setup: GatherSetup; task: GatherTask; result: null; partial: Record<string, never> };
@@ -36,6 +38,10 @@ type AnyMapper = Mapper<unknown, unknown, AnyPartial>;
 export async function createMapper(kind: MapKind, setup: unknown): Promise<AnyMapper> {
   if (kind === 'vocabulary') {
     const m = await VocabularyMapper.create(setup as VocabularySetup);
+    return { run: (t, p) => m.run(t as InputSplit, p), finish: () => m.finish() };
+  }
+  if (kind === 'tokens') {
+    const m = await TokenMapper.create(setup as TokenSetup);
     return { run: (t, p) => m.run(t as InputSplit, p), finish: () => m.finish() };
   }
   if (kind === 'weight') {

@@ -1,0 +1,154 @@
+/**
+ * The vocabulary pass within its memory: when a thread's term table reaches its limit, its terms are written to
+ * a run on disk and the table starts empty (decision 35). Builds whose tables hold a few dozen terms, so that they
+ * are written out hundreds of times, also in the middle of documents, must give the same files as builds that
+ * never write one (checksums), and a vocabulary whose counts and document frequencies equal those counted here
+ * by definition: every token of the documented tokenizer (src/tokenize/index.ts, the reference path), a
+ * Set of each document's terms for the document frequency, filtered by minCount and minDocFreq, ordered by count
+ * descending and then by code point (Buffer.compare of the UTF-8 bytes).
+ */
+import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import os from 'node:os';
+import path from 'node:path';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { runBuild } from '../src/build.js';
+import { termTableLimits } from '../src/count/passes.js';
+import type { Progress } from '../src/progress.js';
+import { readVocabulary } from '../src/store/vocab-file.js';
+import { createTokenizer } from '../src/tokenize/index.js';
+import { validateConfig } from '../src/config/index.js';
+import { fileChecksums, loadedConfig } from './helpers/small-build.js';
+import { mulberry32 } from './helpers/random.js';
+
+let work: string;
+
+/** Whole numbers in [0, n) from a seeded generator. */
+function generator(seed: number): (n: number) => number {
+  const next = mulberry32(seed);
+  return (n) => Math.floor(next() * n);
+}
+
+/** A word of rank r: a few frequent words, a long tail (many met once), some with a non-ASCII letter. */
+function word(r: number): string {
+  const syllables = ['ka', 'lo', 'mi', 'nu', 'pe', 'ri', 'so', 'tu', 'vé', 'ză'];
+  let w = '';
+  let x = r + 1;
+  while (x > 0) {
+    w += syllables[x % 10];
+    x = Math.floor(x / 10);
+  }
+  return w;
+}
+
+function documentText(rnd: (n: number) => number, tokens: number): string {
+  const out: string[] = [];
+  for (let i = 0; i < tokens; i++) {
+    // about a third from 20 frequent words, the rest from 3000, so that terms recur across documents
+    const r = rnd(3) === 0 ? rnd(20) : rnd(rnd(2) === 0 ? 300 : 3000);
+    out.push(rnd(40) === 0 ? word(r).toUpperCase() : word(r));
+  }
+  return out.join(rnd(5) === 0 ? ', ' : ' ');
+}
+
+/** Term counts and document frequencies of documents by definition, filtered and ordered as a vocabulary. */
+async function expectedVocabulary(docs: string[], minCount: number, minDocFreq: number) {
+  const cfg = validateConfig({ input: { paths: ['x'] } }, 'test');
+  const tokenizer = await createTokenizer(cfg.tokenize, work);
+  const counts = new Map<string, number>();
+  const docFreqs = new Map<string, number>();
+  for (const d of docs) {
+    const seen = new Set<string>();
+    tokenizer.tokenize(d, (t) => {
+      counts.set(t, (counts.get(t) ?? 0) + 1);
+      seen.add(t);
+    });
+    for (const t of seen) docFreqs.set(t, (docFreqs.get(t) ?? 0) + 1);
+  }
+  const terms = [...counts.keys()].filter((t) => counts.get(t)! >= minCount && docFreqs.get(t)! >= minDocFreq);
+  terms.sort((a, b) => counts.get(b)! - counts.get(a)! || Buffer.compare(Buffer.from(a), Buffer.from(b)));
+  return { terms, counts: terms.map((t) => counts.get(t)!), docFreqs: terms.map((t) => docFreqs.get(t)!), distinct: counts.size };
+}
+
+function recorder(): Progress & { summaries: string[] } {
+  const summaries: string[] = [];
+  return { summaries, start() {}, update() {}, end: (s: string) => void summaries.push(s) };
+}
+
+async function build(name: string, raw: Record<string, unknown>, termLimit?: number) {
+  const progress = recorder();
+  const outDir = path.join(work, name);
+  const m = await runBuild(loadedConfig(work, raw), { outDir, progress, termLimit, notify: () => {} });
+  return { m, outDir, summaries: progress.summaries.join('\n') };
+}
+
+let lineDocs: string[];
+let fileDocs: string[];
+
+beforeAll(() => {
+  work = mkdtempSync(path.join(os.tmpdir(), 'kindred-spill-'));
+  const rnd = generator(7);
+  lineDocs = Array.from({ length: 400 }, () => documentText(rnd, rnd(3) === 0 ? 0 : 1 + rnd(60)));
+  writeFileSync(path.join(work, 'lines.txt'), lineDocs.join('\n') + '\n');
+  // one document per file: a long one, which tables of a few dozen terms fill many times, and two short ones
+  fileDocs = [documentText(rnd, 20000), documentText(rnd, 300), documentText(rnd, 50)];
+  fileDocs.forEach((d, i) => writeFileSync(path.join(work, `doc${i}.txt`), d));
+  // the lines file as text: documents are its lines
+  lineDocs = readFileSync(path.join(work, 'lines.txt'), 'utf8').split('\n').slice(0, -1);
+});
+afterAll(() => rmSync(work, { recursive: true, force: true }));
+
+describe('term tables written to runs', () => {
+  const cases: [string, Record<string, unknown>, number, () => string[]][] = [
+    ['lines, harmonic windows, 1 thread', { input: { paths: ['lines.txt'], format: 'text-lines' }, vocabulary: { minCount: 3 }, contexts: { window: 4, weighting: 'harmonic' }, workers: 1 }, 16, () => lineDocs],
+    ['lines, document contexts, 2 threads, minDocFreq', { input: { paths: ['lines.txt'], format: 'text-lines' }, vocabulary: { minCount: 2, minDocFreq: 3 }, contexts: { type: 'document' }, weighting: { scheme: 'tfidf' }, workers: 2 }, 64, () => lineDocs],
+    ['whole files, one long document, 2 threads', { input: { paths: ['doc0.txt', 'doc1.txt', 'doc2.txt'], format: 'text-file' }, vocabulary: { minCount: 2, minDocFreq: 2 }, contexts: { window: 2 }, workers: 2 }, 32, () => fileDocs],
+  ];
+  for (const [name, raw, limit, docs] of cases) {
+    it(`${name}: same files as without runs, vocabulary as counted by definition`, async () => {
+      const key = name.replace(/\W+/g, '-');
+      const whole = await build(`${key}-whole`, raw);
+      const spilled = await build(`${key}-runs`, raw, limit);
+      // the runs were written (else this compares two builds of one kind)
+      expect(whole.summaries).not.toMatch(/runs/);
+      expect(spilled.summaries).toMatch(/term tables written to \d{2,} runs/);
+      expect(fileChecksums(spilled.m)).toEqual(fileChecksums(whole.m));
+
+      const v = (raw.vocabulary ?? {}) as { minCount?: number; minDocFreq?: number };
+      const want = await expectedVocabulary(docs(), v.minCount ?? 1, v.minDocFreq ?? 1);
+      const got = readVocabulary(path.join(spilled.outDir, 'vocab.arrow'));
+      expect(got.terms).toEqual(want.terms);
+      expect([...got.counts]).toEqual(want.counts);
+      expect([...got.docFreqs]).toEqual(want.docFreqs);
+      expect(spilled.summaries).toContain(`${want.distinct} distinct terms`);
+    });
+  }
+});
+
+describe('token streams of a kept vocabulary', () => {
+  it('a count stage rerun on a reused vocabulary reads the text again and gives the files of a fresh build', async () => {
+    const raw = { input: { paths: ['lines.txt'], format: 'text-lines' }, vocabulary: { minCount: 3 }, contexts: { window: 4 }, workers: 2 };
+    const other = { ...raw, contexts: { window: 2, direction: 'right' } };
+    await build('rerun', raw);
+    const rerun = await build('rerun', other);
+    expect(rerun.m.stages.map((s) => [s.name, s.reused])).toEqual([['fingerprint', false], ['vocabulary', true], ['count', false], ['weight', false]]);
+    expect(rerun.summaries).toMatch(/token streams/);
+    const fresh = await build('fresh', other);
+    expect(fresh.summaries).not.toMatch(/token streams/);
+    expect(fileChecksums(rerun.m)).toEqual(fileChecksums(fresh.m));
+  });
+});
+
+describe('term table limits from the memory budget', () => {
+  it('fit each thread\'s share (half of memoryMiB over the threads) at 40 bytes a term', () => {
+    for (const [mib, workers] of [[16, 1], [16, 8], [1024, 2], [1200, 2], [4096, 3]]) {
+      const { termLimit, arenaLimit } = termTableLimits(mib, workers);
+      const share = (mib * 1048576) / 2 / workers;
+      expect(Number.isInteger(Math.log2(termLimit)) && Number.isInteger(Math.log2(arenaLimit))).toBe(true);
+      expect(40 * termLimit + arenaLimit).toBeLessThanOrEqual(share);
+      // not wastefully small: the next power of two of either would not fit
+      expect(40 * termLimit * 2 > share * 0.75 || 40 * termLimit * 2 + arenaLimit > share).toBe(true);
+      expect(arenaLimit * 2 > share - 40 * termLimit).toBe(true);
+    }
+    expect(termTableLimits(1024, 2).termLimit).toBe(1 << 22);
+  });
+});
