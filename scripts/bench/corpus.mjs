@@ -74,6 +74,16 @@ function wordOf(r) {
 const HEAD = 10000;
 const TAIL = 1.8;
 const P_HEAD = ((TAIL - 1) * Math.log(HEAD)) / (1 + (TAIL - 1) * Math.log(HEAD));
+const LN_HEAD = Math.log(HEAD);
+
+/** A rank drawn from the sampler above. */
+function rankOf(random) {
+  const u = random();
+  const r = u < P_HEAD
+    ? Math.floor(Math.exp((u / P_HEAD) * LN_HEAD)) - 1
+    : Math.floor(HEAD * Math.pow((1 - u) / (1 - P_HEAD), -1 / (TAIL - 1))) - 1;
+  return Math.min(r, 2 ** 40);
+}
 
 /**
  * Writes `tokens` synthetic tokens, one document per line (lengths 1..400, mean about 200 tokens),
@@ -97,14 +107,9 @@ export function writeSynthetic(file, tokens = 10_000_000, seed = 1) {
   let written = 0;
   let docLeft = 0;
   let capital = true;
-  const lnHead = Math.log(HEAD);
   for (let t = 0; t < tokens; t++) {
     if (docLeft === 0) docLeft = 1 + Math.floor(random() * 400);
-    const u = random();
-    const r = u < P_HEAD
-      ? Math.floor(Math.exp((u / P_HEAD) * lnHead)) - 1
-      : Math.floor(HEAD * Math.pow((1 - u) / (1 - P_HEAD), -1 / (TAIL - 1))) - 1;
-    const w = word(Math.min(r, 2 ** 40));
+    const w = word(rankOf(random));
     if (fill + w.length + 2 > out.length) {
       writeSync(fd, out, 0, fill);
       written += fill;
@@ -119,6 +124,41 @@ export function writeSynthetic(file, tokens = 10_000_000, seed = 1) {
     out[fill++] = docLeft === 0 ? 0x0a : 0x20;
     if (docLeft === 0) capital = true;
     total++;
+  }
+  if (docLeft !== 0) out[fill - 1] = 0x0a;
+  writeSync(fd, out, 0, fill);
+  written += fill;
+  closeSync(fd);
+  return written;
+}
+
+/**
+ * Writes `tokens` tokens of text with a vocabulary that keeps growing: half the tokens are drawn as in
+ * writeSynthetic, half are random strings of nine lowercase letters (nearly all distinct, as the identifiers,
+ * typos and numbers of web text are), one document per line of 1..400 tokens. It measures the vocabulary
+ * pass's memory, whose term tables must hold every distinct term (decision 35). Deterministic for a seed.
+ */
+export function writeWide(file, tokens = 20_000_000, seed = 2) {
+  const random = makeRandom(seed);
+  const out = Buffer.allocUnsafe(1 << 22);
+  let fill = 0;
+  let written = 0;
+  const fd = openSync(file, 'w');
+  let docLeft = 0;
+  for (let t = 0; t < tokens; t++) {
+    if (docLeft === 0) docLeft = 1 + Math.floor(random() * 400);
+    if (fill + 64 > out.length) {
+      writeSync(fd, out, 0, fill);
+      written += fill;
+      fill = 0;
+    }
+    if (random() < 0.5) {
+      fill += out.write(wordOf(rankOf(random)), fill, 'latin1');
+    } else {
+      for (let k = 0; k < 9; k++) out[fill++] = 0x61 + Math.floor(random() * 26);
+    }
+    docLeft--;
+    out[fill++] = docLeft === 0 ? 0x0a : 0x20;
   }
   if (docLeft !== 0) out[fill - 1] = 0x0a;
   writeSync(fd, out, 0, fill);

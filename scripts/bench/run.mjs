@@ -5,8 +5,11 @@
  *   npm run bench                                   Brown ×10 and synthetic 10M tokens
  *   npm run bench -- --sizes 10m,100m               add the 100M-token synthetic corpus
  *   npm run bench -- --sizes 1b --no-reference      the 1B-token corpus (hours of reference time otherwise)
+ *   npm run bench -- --corpora wide --sizes 20m --memory 256 --no-reference --no-single
+ *                                                   half the tokens random strings: the vocabulary pass's
+ *                                                   memory with 10M distinct terms (decision 35)
  *
- * Options: --corpora brown,synthetic  --sizes 10m[,100m,1b]  --workers N (0 = CPU count)  --memory MiB
+ * Options: --corpora brown,synthetic[,wide]  --sizes 10m[,100m,1b]  --workers N (0 = CPU count)  --memory MiB
  *          --dir DIR (corpora and outputs; default $TMPDIR/kindred-bench)  --no-reference  --no-single
  *          --reference-max-tokens N (skip the reference above this size; default 150m)
  *          --huge-pages (one more kindred build, all workers, with GLIBC_TUNABLES=glibc.malloc.hugetlb=1:
@@ -18,7 +21,7 @@ import { existsSync, mkdirSync, readFileSync, rmSync, statSync, writeFileSync } 
 import os from 'node:os';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
-import { writeBrown, writeSynthetic } from './corpus.mjs';
+import { writeBrown, writeSynthetic, writeWide } from './corpus.mjs';
 
 const repoRoot = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..', '..');
 const TIME = '/usr/bin/time';
@@ -40,7 +43,7 @@ function parseArgs(argv) {
     else if (a === '--reference-max-tokens') o.referenceMaxTokens = tokensOf(next());
     else throw new Error(`unknown option ${a} (see the header of scripts/bench/run.mjs)`);
   }
-  for (const c of o.corpora) if (c !== 'brown' && c !== 'synthetic') throw new Error(`unknown corpus ${c}: use brown, synthetic`);
+  for (const c of o.corpora) if (c !== 'brown' && c !== 'synthetic' && c !== 'wide') throw new Error(`unknown corpus ${c}: use brown, synthetic, wide`);
   return o;
 }
 
@@ -84,6 +87,7 @@ function ensureCorpus(o, name) {
   if (existsSync(file)) return file;
   process.stderr.write(`bench: writing ${file}\n`);
   if (name === 'brown10') writeBrown(file, 10);
+  else if (name.startsWith('wide-')) writeWide(file, tokensOf(name.replace(/^wide-/, '')), 2);
   else writeSynthetic(file, tokensOf(name.replace(/^synthetic-/, '')), 1);
   return file;
 }
@@ -145,6 +149,7 @@ function main() {
   const names = [];
   if (o.corpora.includes('brown')) names.push('brown10');
   if (o.corpora.includes('synthetic')) for (const s of o.sizes) names.push(`synthetic-${s}`);
+  if (o.corpora.includes('wide')) for (const s of o.sizes) names.push(`wide-${s}`);
   const rows = [];
   const results = [];
   for (const name of names) {
