@@ -51,7 +51,7 @@ function documentText(rnd: (n: number) => number, tokens: number): string {
 }
 
 /** Term counts and document frequencies of documents by definition, filtered and ordered as a vocabulary. */
-async function expectedVocabulary(docs: string[], minCount: number, minDocFreq: number) {
+async function expectedVocabulary(docs: string[], minCount: number, minDocFreq: number, maxSize: number) {
   const cfg = validateConfig({ input: { paths: ['x'] } }, 'test');
   const tokenizer = await createTokenizer(cfg.tokenize, work);
   const counts = new Map<string, number>();
@@ -66,6 +66,7 @@ async function expectedVocabulary(docs: string[], minCount: number, minDocFreq: 
   }
   const terms = [...counts.keys()].filter((t) => counts.get(t)! >= minCount && docFreqs.get(t)! >= minDocFreq);
   terms.sort((a, b) => counts.get(b)! - counts.get(a)! || Buffer.compare(Buffer.from(a), Buffer.from(b)));
+  if (maxSize > 0) terms.length = Math.min(terms.length, maxSize);
   return { terms, counts: terms.map((t) => counts.get(t)!), docFreqs: terms.map((t) => docFreqs.get(t)!), distinct: counts.size };
 }
 
@@ -101,6 +102,7 @@ describe('term tables written to runs', () => {
   const cases: [string, Record<string, unknown>, number, () => string[]][] = [
     ['lines, harmonic windows, 1 thread', { input: { paths: ['lines.txt'], format: 'text-lines' }, vocabulary: { minCount: 3 }, contexts: { window: 4, weighting: 'harmonic' }, workers: 1 }, 16, () => lineDocs],
     ['lines, document contexts, 2 threads, minDocFreq', { input: { paths: ['lines.txt'], format: 'text-lines' }, vocabulary: { minCount: 2, minDocFreq: 3 }, contexts: { type: 'document' }, weighting: { scheme: 'tfidf' }, workers: 2 }, 64, () => lineDocs],
+    ['lines, maxSize far below the terms that pass minCount, 2 threads', { input: { paths: ['lines.txt'], format: 'text-lines' }, vocabulary: { minCount: 2, maxSize: 40 }, contexts: { window: 3 }, workers: 2 }, 16, () => lineDocs],
     ['whole files, one long document, 2 threads', { input: { paths: ['doc0.txt', 'doc1.txt', 'doc2.txt'], format: 'text-file' }, vocabulary: { minCount: 2, minDocFreq: 2 }, contexts: { window: 2 }, workers: 2 }, 32, () => fileDocs],
   ];
   for (const [name, raw, limit, docs] of cases) {
@@ -113,8 +115,9 @@ describe('term tables written to runs', () => {
       expect(spilled.summaries).toMatch(/term tables written to \d{2,} runs/);
       expect(fileChecksums(spilled.m)).toEqual(fileChecksums(whole.m));
 
-      const v = (raw.vocabulary ?? {}) as { minCount?: number; minDocFreq?: number };
-      const want = await expectedVocabulary(docs(), v.minCount ?? 1, v.minDocFreq ?? 1);
+      const v = (raw.vocabulary ?? {}) as { minCount?: number; minDocFreq?: number; maxSize?: number };
+      const want = await expectedVocabulary(docs(), v.minCount ?? 1, v.minDocFreq ?? 1, v.maxSize ?? 0);
+      if (v.maxSize) expect(want.terms.length).toBe(v.maxSize);
       const got = readVocabulary(path.join(spilled.outDir, 'vocab.arrow'));
       expect(got.terms).toEqual(want.terms);
       expect([...got.counts]).toEqual(want.counts);

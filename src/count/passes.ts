@@ -157,8 +157,8 @@ async function countTermsSpilled(
   const inputs: MergeInput[] = run.partials.flatMap((p, m): MergeInput[] =>
     p.runs.length > 0 ? p.runs.map((r) => ({ mapper: m, epoch: r.epoch, run: r, table: null })) : [{ mapper: m, epoch: 0, run: null, table: p }]);
   const runs = inputs.filter((i) => i.run !== null).length;
-  const { terms, counts, docFreqs, distinct } = mergeTermRuns(inputs, cfg.vocabulary.minCount, cfg.vocabulary.minDocFreq);
-  // the merge kept only terms that pass the count filters: keptTerms orders them and applies maxSize
+  const { terms, counts, docFreqs, distinct } = mergeTermRuns(inputs, cfg.vocabulary);
+  // the merge kept only terms that pass the count filters, at most twice maxSize: keptTerms orders them and cuts
   const merged: MergedTerms = { terms, size: counts.length, counts, docFreqs, mergedIds: [], tokens };
   const kept = keptTerms(merged, cfg.vocabulary);
   const { vocab } = keptVocabulary(merged, kept);

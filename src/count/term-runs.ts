@@ -211,20 +211,20 @@ export interface MergeInput {
  * one mapper counted once), keeping only those with count ≥ minCount and document frequency ≥ minDocFreq. The
  * run files are removed once read.
  */
-export function mergeTermRuns(inputs: MergeInput[], minCount: number, minDocFreq: number): KeptTerms {
+export function mergeTermRuns(inputs: MergeInput[], v: { minCount: number; minDocFreq: number; maxSize: number }): KeptTerms {
   const order = inputs.map((_, i) => i).sort((a, b) => inputs[a].mapper - inputs[b].mapper || inputs[a].epoch - inputs[b].epoch);
   const sorted = order.map((i) => inputs[i]);
   const sources: TermSource[] = [];
   try {
     for (const input of sorted) sources.push(input.run !== null ? new RunSource(input.run.file) : new TableSource(input.table!));
-    return mergeSources(sorted, sources, minCount, minDocFreq);
+    return mergeSources(sorted, sources, v);
   } finally {
     for (const s of sources) s.close();
     for (const input of sorted) if (input.run !== null) rmSync(input.run.file, { force: true });
   }
 }
 
-function mergeSources(inputs: MergeInput[], sources: TermSource[], minCount: number, minDocFreq: number): KeptTerms {
+function mergeSources(inputs: MergeInput[], sources: TermSource[], { minCount, minDocFreq, maxSize }: { minCount: number; minDocFreq: number; maxSize: number }): KeptTerms {
   // a binary heap of source indexes by current term, ties by index (so a mapper's runs come in epoch order)
   const less = (a: number, b: number): boolean => {
     const x = sources[a];
@@ -290,6 +290,12 @@ function mergeSources(inputs: MergeInput[], sources: TermSource[], minCount: num
     } while (heap.length > 0 && compareBytes(sources[heap[0]].bytes, sources[heap[0]].start, sources[heap[0]].end, arena, fill, fill + len) === 0);
     distinct++;
     if (count < minCount || docFreq < minDocFreq) continue;
+    if (maxSize > 0 && kept === 2 * maxSize) {
+      kept = keepMost(maxSize, kept, arena, offsets, counts, docFreqs);
+      // the term being added, copied at fill above, moves down after the kept ones
+      arena.copyWithin(offsets[kept], fill, fill + len);
+      fill = offsets[kept];
+    }
     if (kept === cap) {
       cap *= 2;
       const o = new Uint32Array(cap + 1);
@@ -308,4 +314,27 @@ function mergeSources(inputs: MergeInput[], sources: TermSource[], minCount: num
     offsets[++kept] = fill;
   }
   return { terms: { arena: arena.subarray(0, fill), offsets: offsets.subarray(0, kept + 1) }, counts: counts.subarray(0, kept), docFreqs: docFreqs.subarray(0, kept), distinct };
+}
+
+/**
+ * Of `kept` terms in byte order, the `most` that come first by count descending, ties by byte order (as the
+ * vocabulary orders them), moved to the front in byte order; returns `most`. A term left out here could never
+ * be in the vocabulary: those after it in byte order rank below it at an equal count. So the terms held stay
+ * under twice vocabulary.maxSize.
+ */
+function keepMost(most: number, kept: number, arena: Uint8Array, offsets: Uint32Array, counts: Float64Array, docFreqs: Uint32Array): number {
+  const ids = Array.from({ length: kept }, (_, i) => i);
+  ids.sort((a, b) => counts[b] - counts[a] || a - b);
+  const keep = ids.slice(0, most).sort((a, b) => a - b);
+  let fill = 0;
+  for (let i = 0; i < keep.length; i++) {
+    const id = keep[i];
+    // ids ascending: each term moves towards the front, never over one not yet moved
+    arena.copyWithin(fill, offsets[id], offsets[id + 1]);
+    fill += offsets[id + 1] - offsets[id];
+    counts[i] = counts[id];
+    docFreqs[i] = docFreqs[id];
+    offsets[i + 1] = fill;
+  }
+  return keep.length;
 }
