@@ -177,8 +177,8 @@ export class VocabularyMapper {
     const epoch = this.runs.length;
     const { streamDir, mapper } = this.setup;
     const file = path.join(streamDir, `m${String(mapper).padStart(3, '0')}-terms-${String(epoch).padStart(6, '0')}.run`);
-    writeTermRun(file, { terms: { arena: this.table.arena, offsets: this.table.starts }, size, counts: this.counts, docFreqs: this.docFreqs, flags });
-    this.runs.push({ file, mapper, epoch, continuedDoc: this.continuedDoc, openDoc });
+    const bytes = writeTermRun(file, { terms: { arena: this.table.arena, offsets: this.table.starts }, size, counts: this.counts, docFreqs: this.docFreqs, flags });
+    this.runs.push({ file, mapper, epoch, continuedDoc: this.continuedDoc, openDoc, bytes });
     this.table.clear();
     this.counts.fill(0);
     this.docFreqs.fill(0);

@@ -156,13 +156,15 @@ async function countTermsSpilled(
   for (const p of run.partials) tokens += p.tokens;
   const inputs: MergeInput[] = run.partials.flatMap((p, m): MergeInput[] =>
     p.runs.length > 0 ? p.runs.map((r) => ({ mapper: m, epoch: r.epoch, run: r, table: null })) : [{ mapper: m, epoch: 0, run: null, table: p }]);
-  const runs = inputs.filter((i) => i.run !== null).length;
-  const { terms, counts, docFreqs, distinct } = mergeTermRuns(inputs, cfg.vocabulary);
+  const runs = inputs.filter((i) => i.run !== null);
+  progress.end(`${stats.documents} documents, ${tokens} tokens (${run.threads} thread${run.threads > 1 ? 's' : ''}); term tables written to ${runs.length} runs`);
+  progress.start('terms', runs.reduce((sum, i) => sum + i.run!.bytes, 0), 'B');
+  const { terms, counts, docFreqs, distinct } = mergeTermRuns(inputs, cfg.vocabulary, (bytes) => progress.update(bytes));
   // the merge kept only terms that pass the count filters, at most twice maxSize: keptTerms orders them and cuts
   const merged: MergedTerms = { terms, size: counts.length, counts, docFreqs, mergedIds: [], tokens };
   const kept = keptTerms(merged, cfg.vocabulary);
   const { vocab } = keptVocabulary(merged, kept);
-  progress.end(`${vocabularyLine(stats, tokens, distinct, vocab.terms.length, run.threads)}; term tables written to ${runs} runs`);
+  progress.end(`${distinct} distinct terms, ${vocab.terms.length} kept (${runs.length} runs merged)`);
   const streams = await vocabularyStreams(files, cfg, exec, termBytesOf(terms, kept), progress, totalBytes, streamDir);
   return { vocab, counter: { tokens, size: distinct }, threads: run.threads, streams };
 }

@@ -35,6 +35,8 @@ export interface TermRun {
   continuedDoc: number;
   /** Number of the document still open when the run was written, or -1. */
   openDoc: number;
+  /** Size of the file. */
+  bytes: number;
 }
 
 /** A table's terms as a mapper hands them over: ids 0..n-1 with their bytes, sums and flags. */
@@ -47,8 +49,8 @@ export interface EpochTerms {
   flags: Uint8Array | null;
 }
 
-/** Writes one epoch's terms to `file`, sorted by their bytes. */
-export function writeTermRun(file: string, epoch: EpochTerms): void {
+/** Writes one epoch's terms to `file`, sorted by their bytes; returns the bytes written. */
+export function writeTermRun(file: string, epoch: EpochTerms): number {
   const { terms, size, counts, docFreqs, flags } = epoch;
   const order = new Uint32Array(size);
   for (let i = 0; i < size; i++) order[i] = i;
@@ -61,6 +63,7 @@ export function writeTermRun(file: string, epoch: EpochTerms): void {
   }
   let buf = takeBuffer(BUFFER_BYTES);
   let fill = 0;
+  let written = 0;
   try {
     for (let i = 0; i < size; i++) {
       const id = order[i];
@@ -68,6 +71,7 @@ export function writeTermRun(file: string, epoch: EpochTerms): void {
       const len = terms.offsets[id + 1] - s;
       if (fill + HEADER_BYTES + len > buf.length) {
         writeBytesOrThrow(fd, buf, fill, file);
+        written += fill;
         fill = 0;
         if (HEADER_BYTES + len > buf.length) {
           giveBuffer(buf);
@@ -83,10 +87,12 @@ export function writeTermRun(file: string, epoch: EpochTerms): void {
       fill += len;
     }
     writeBytesOrThrow(fd, buf, fill, file);
+    written += fill;
   } finally {
     closeSync(fd);
     giveBuffer(buf);
   }
+  return written;
 }
 
 /** Terms in byte order from one source, one at a time: the current term is bytes[start, end) with its sums. */
@@ -97,6 +103,8 @@ abstract class TermSource {
   count = 0;
   docFreq = 0;
   flags = 0;
+  /** Bytes of its file read so far (0 for a table). */
+  read = 0;
   /** Moves to the next term; false at the end. */
   abstract next(): boolean;
   abstract close(): void;
@@ -107,7 +115,6 @@ class RunSource extends TermSource {
   private buf: Buffer;
   private fill = 0;
   private pos = 0;
-  private filePos = 0;
   private readonly fd: number;
 
   constructor(private readonly file: string) {
@@ -152,10 +159,10 @@ class RunSource extends TermSource {
     this.pos = 0;
     this.bytes = this.buf;
     while (this.fill < n) {
-      const got = readSync(this.fd, this.buf, this.fill, this.buf.length - this.fill, this.filePos);
+      const got = readSync(this.fd, this.buf, this.fill, this.buf.length - this.fill, this.read);
       if (got <= 0) return false;
       this.fill += got;
-      this.filePos += got;
+      this.read += got;
     }
     return true;
   }
@@ -206,25 +213,33 @@ export interface MergeInput {
   table: { terms: TermBytes; order: Uint32Array; counts: Float64Array; docFreqs: Uint32Array } | null;
 }
 
+/** Distinct terms merged between two progress reports. */
+const PROGRESS_TERMS = 1 << 16;
+
 /**
  * Every source's terms merged by their bytes, equal terms summed (a document counted in two consecutive runs of
  * one mapper counted once), keeping only those with count ≥ minCount and document frequency ≥ minDocFreq. The
- * run files are removed once read.
+ * run files are removed once read. onProgress hears the bytes of the runs read so far.
  */
-export function mergeTermRuns(inputs: MergeInput[], v: { minCount: number; minDocFreq: number; maxSize: number }): KeptTerms {
+export function mergeTermRuns(
+  inputs: MergeInput[], v: { minCount: number; minDocFreq: number; maxSize: number }, onProgress: (bytes: number) => void = () => {},
+): KeptTerms {
   const order = inputs.map((_, i) => i).sort((a, b) => inputs[a].mapper - inputs[b].mapper || inputs[a].epoch - inputs[b].epoch);
   const sorted = order.map((i) => inputs[i]);
   const sources: TermSource[] = [];
   try {
     for (const input of sorted) sources.push(input.run !== null ? new RunSource(input.run.file) : new TableSource(input.table!));
-    return mergeSources(sorted, sources, v);
+    return mergeSources(sorted, sources, v, onProgress);
   } finally {
     for (const s of sources) s.close();
     for (const input of sorted) if (input.run !== null) rmSync(input.run.file, { force: true });
   }
 }
 
-function mergeSources(inputs: MergeInput[], sources: TermSource[], { minCount, minDocFreq, maxSize }: { minCount: number; minDocFreq: number; maxSize: number }): KeptTerms {
+function mergeSources(
+  inputs: MergeInput[], sources: TermSource[], { minCount, minDocFreq, maxSize }: { minCount: number; minDocFreq: number; maxSize: number },
+  onProgress: (bytes: number) => void,
+): KeptTerms {
   // a binary heap of source indexes by current term, ties by index (so a mapper's runs come in epoch order)
   const less = (a: number, b: number): boolean => {
     const x = sources[a];
@@ -288,7 +303,7 @@ function mergeSources(inputs: MergeInput[], sources: TermSource[], { minCount, m
         if (heap.length > 0) down(0);
       }
     } while (heap.length > 0 && compareBytes(sources[heap[0]].bytes, sources[heap[0]].start, sources[heap[0]].end, arena, fill, fill + len) === 0);
-    distinct++;
+    if (++distinct % PROGRESS_TERMS === 0) onProgress(sources.reduce((sum, x) => sum + x.read, 0));
     if (count < minCount || docFreq < minDocFreq) continue;
     if (maxSize > 0 && kept === 2 * maxSize) {
       kept = keepMost(maxSize, kept, arena, offsets, counts, docFreqs);
