@@ -59,7 +59,7 @@ function byteOrder(terms: Buffer[]): number[] {
 }
 
 describe('sortByBytes', () => {
-  for (const [count, seed] of [[0, 1], [1, 2], [11, 3], [12, 4], [500, 5], [20000, 6]] as const) {
+  for (const [count, seed] of [[0, 1], [1, 2], [11, 3], [12, 4], [500, 5], [20000, 6], [70000, 7]] as const) {
     it(`orders ${count} terms as Buffer.compare does`, () => {
       const terms = randomTerms(count, seed);
       const ids = new Uint32Array(count);
@@ -69,6 +69,22 @@ describe('sortByBytes', () => {
       expect(Array.from(ids)).toEqual(byteOrder(terms));
     });
   }
+
+  it('orders 70,000 terms with zero bytes, which pad like a shorter term\'s end, as Buffer.compare does (radix path)', () => {
+    const rnd = generator(9);
+    const seen = new Set<string>();
+    const terms: Buffer[] = [];
+    while (terms.length < 70000) {
+      const b = Buffer.from(Array.from({ length: 1 + rnd(11) }, () => [0x00, 0x01, 0x61, 0xff][rnd(4)]));
+      if (seen.has(b.toString('hex'))) continue;
+      seen.add(b.toString('hex'));
+      terms.push(b);
+    }
+    const ids = Uint32Array.from(terms.keys());
+    const { arena, offsets } = termBytes(terms);
+    sortByBytes(arena, offsets, ids);
+    expect(Array.from(ids)).toEqual(byteOrder(terms));
+  });
 
   it('puts a prefix before the terms it starts', () => {
     const terms = ['ab', 'a', 'abc', 'b', 'aa', 'a'.repeat(3000), 'a'.repeat(2999)].map((t) => Buffer.from(t));
@@ -88,7 +104,7 @@ function partialOf(terms: Buffer[], rnd: (n: number) => number): VocabularyParti
   const order = new Uint32Array(terms.length);
   for (let i = 0; i < terms.length; i++) order[i] = i;
   sortByBytes(t.arena, t.offsets, order);
-  return { terms: t, order, counts, docFreqs, tokens: counts.reduce((s, c) => s + c, 0) };
+  return { terms: t, order, counts, docFreqs, tokens: counts.reduce((s, c) => s + c, 0), runs: [] };
 }
 
 describe('mergeTermCounts', () => {

@@ -37,7 +37,7 @@ export function writeBrown(file, copies = 10) {
 }
 
 /** splitmix32-style seeded generator: uniform floats in [0, 1). */
-function makeRandom(seed) {
+export function makeRandom(seed) {
   let s = seed >>> 0;
   return () => {
     s = (s + 0x9e3779b9) >>> 0;
@@ -54,7 +54,7 @@ const SYLLABLES = [];
 for (const c of CONSONANTS) for (const v of VOWELS) SYLLABLES.push(c + v);
 
 /** The word of rank r (0-based): r written in bijective base 80 with one consonant-vowel syllable per digit. */
-function wordOf(r) {
+export function wordOf(r) {
   let s = '';
   let n = r + 1;
   while (n > 0) {
@@ -77,7 +77,7 @@ const P_HEAD = ((TAIL - 1) * Math.log(HEAD)) / (1 + (TAIL - 1) * Math.log(HEAD))
 const LN_HEAD = Math.log(HEAD);
 
 /** A rank drawn from the sampler above. */
-function rankOf(random) {
+export function rankOf(random) {
   const u = random();
   const r = u < P_HEAD
     ? Math.floor(Math.exp((u / P_HEAD) * LN_HEAD)) - 1
