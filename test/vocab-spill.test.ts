@@ -12,7 +12,8 @@ import os from 'node:os';
 import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { runBuild } from '../src/build.js';
-import { termTableLimits } from '../src/count/passes.js';
+import { decodeTerms, termTableLimits } from '../src/count/passes.js';
+import { concatKept, mergeTermRange, termRanges, writeTermRun, type TermRun } from '../src/count/term-runs.js';
 import type { Progress } from '../src/progress.js';
 import { readVocabulary } from '../src/store/vocab-file.js';
 import { createTokenizer } from '../src/tokenize/index.js';
@@ -112,7 +113,9 @@ describe('term tables written to runs', () => {
       const spilled = await build(`${key}-runs`, raw, limit);
       // the runs were written (else this compares two builds of one kind)
       expect(whole.summaries).not.toMatch(/runs/);
-      expect(spilled.summaries).toMatch(/term tables written to \d{2,} runs/);
+      expect(spilled.summaries).toMatch(/term tables written to \d{3,} runs/);
+      // more runs than a merge reads at once: folded first (the flags carried over), as a large corpus's are
+      expect(spilled.summaries).toMatch(/round 1: \d+ term runs folded into \d+/);
       expect(fileChecksums(spilled.m)).toEqual(fileChecksums(whole.m));
 
       const v = (raw.vocabulary ?? {}) as { minCount?: number; minDocFreq?: number; maxSize?: number };
@@ -138,6 +141,42 @@ describe('token streams of a kept vocabulary', () => {
     const fresh = await build('fresh', other);
     expect(fresh.summaries).not.toMatch(/token streams/);
     expect(fileChecksums(rerun.m)).toEqual(fileChecksums(fresh.m));
+  });
+});
+
+describe('merging term runs by ranges of terms', () => {
+  it('gives, range after range, the sums of a map keyed by the terms (runs of 5,000-12,000 terms, seeks inside them)', () => {
+    const rnd = generator(3);
+    const sums = new Map<string, { count: number; docFreq: number }>();
+    const runs: TermRun[] = [];
+    for (const [r, size] of [5000, 12000, 9000].entries()) {
+      const terms = new Set<string>();
+      while (terms.size < size) terms.add(word(rnd(40000)) + (rnd(3) === 0 ? 'x'.repeat(rnd(12)) : ''));
+      const list = [...terms];
+      const bytes = list.map((t) => Buffer.from(t));
+      const offsets = new Uint32Array(list.length + 1);
+      bytes.forEach((b, i) => (offsets[i + 1] = offsets[i] + b.length));
+      const counts = Float64Array.from(list, () => 1 + rnd(4));
+      const docFreqs = Uint32Array.from(counts, (c) => 1 + rnd(c));
+      list.forEach((t, i) => {
+        const e = sums.get(t) ?? { count: 0, docFreq: 0 };
+        e.count += counts[i];
+        e.docFreq += docFreqs[i];
+        sums.set(t, e);
+      });
+      const file = path.join(work, `unit-${r}.run`);
+      const { bytes: n, index } = writeTermRun(file, { terms: { arena: new Uint8Array(Buffer.concat(bytes)), offsets }, size, counts, docFreqs, flags: null });
+      runs.push({ file, mapper: r, epoch: 0, continuedDoc: -1, openDoc: -1, bytes: n, index });
+    }
+    const filter = { minCount: 3, minDocFreq: 2, maxSize: 0 };
+    const ranges = termRanges(runs, 7);
+    expect(ranges.length).toBe(7);
+    const merged = concatKept(ranges.map((r) => mergeTermRange(runs, filter, r.lo, r.hi)));
+    const want = [...sums].filter(([, e]) => e.count >= 3 && e.docFreq >= 2).sort(([a], [b]) => Buffer.compare(Buffer.from(a), Buffer.from(b)));
+    expect(merged.distinct).toBe(sums.size);
+    expect(decodeTerms(merged.terms, [...merged.counts.keys()])).toEqual(want.map(([t]) => t));
+    expect([...merged.counts]).toEqual(want.map(([, e]) => e.count));
+    expect([...merged.docFreqs]).toEqual(want.map(([, e]) => e.docFreq));
   });
 });
 

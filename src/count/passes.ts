@@ -14,7 +14,7 @@ import { exactWeights, windowWeights } from './cooccur.js';
 import { RunReader, mergeSources, MAX_ROW_WISE_COLUMNS } from './runs.js';
 import type { MergeResult, MergeTask } from './merge-map.js';
 import { compareBytes, type TermBytes } from './term-table.js';
-import { mergeTermRuns, type MergeInput } from './term-runs.js';
+import { MAX_FAN_IN, concatKept, termRanges, writeTermRun, type KeptTerms, type TermRun } from './term-runs.js';
 import type { RowRange } from './partition.js';
 import {
   ChunkMemory, chunkOf, chunkSource, narrowIds, planChunks, planSlices, sharedInt32, streamLengths, type Chunk, type ChunkIds, type ChunkSlice, type CorpusStreams, type SliceCounts,
@@ -154,19 +154,68 @@ async function countTermsSpilled(
   for (const r of run.results) rmSync(r.stream.file, { force: true });
   let tokens = 0;
   for (const p of run.partials) tokens += p.tokens;
-  const inputs: MergeInput[] = run.partials.flatMap((p, m): MergeInput[] =>
-    p.runs.length > 0 ? p.runs.map((r) => ({ mapper: m, epoch: r.epoch, run: r, table: null })) : [{ mapper: m, epoch: 0, run: null, table: p }]);
-  const runs = inputs.filter((i) => i.run !== null);
-  progress.end(`${stats.documents} documents, ${tokens} tokens (${run.threads} thread${run.threads > 1 ? 's' : ''}); term tables written to ${runs.length} runs`);
-  progress.start('terms', runs.reduce((sum, i) => sum + i.run!.bytes, 0), 'B');
-  const { terms, counts, docFreqs, distinct } = mergeTermRuns(inputs, cfg.vocabulary, (bytes) => progress.update(bytes));
+  const written = termRuns(run.partials, streamDir);
+  progress.end(`${stats.documents} documents, ${tokens} tokens (${run.threads} thread${run.threads > 1 ? 's' : ''}); term tables written to ${written.length} runs`);
+  const runs = await foldTermRuns(written, exec, progress, streamDir);
+  progress.start('terms', runs.reduce((sum, r) => sum + r.bytes, 0), 'B');
+  let done = 0;
+  let parts: KeptTerms[];
+  try {
+    // ranges of terms merged on the threads (two a thread, for balance); in range order, one merge's result
+    const merged = await runMap('terms', () => ({ runs, filter: cfg.vocabulary }), termRanges(runs, 2 * exec.workers), exec.workers, (n) => progress.update((done += n)));
+    parts = merged.results;
+  } finally {
+    for (const r of runs) rmSync(r.file, { force: true });
+  }
+  const { terms, counts, docFreqs, distinct } = concatKept(parts);
   // the merge kept only terms that pass the count filters, at most twice maxSize: keptTerms orders them and cuts
   const merged: MergedTerms = { terms, size: counts.length, counts, docFreqs, mergedIds: [], tokens };
   const kept = keptTerms(merged, cfg.vocabulary);
   const { vocab } = keptVocabulary(merged, kept);
-  progress.end(`${distinct} distinct terms, ${vocab.terms.length} kept (${runs.length} runs merged)`);
+  progress.end(`${distinct} distinct terms, ${vocab.terms.length} kept (${runs.length} runs merged, ${parts.length} ranges)`);
   const streams = await vocabularyStreams(files, cfg, exec, termBytesOf(terms, kept), progress, totalBytes, streamDir);
   return { vocab, counter: { tokens, size: distinct }, threads: run.threads, streams };
+}
+
+/**
+ * Every mapper's runs, in mapper then epoch order, numbered by the mapper's place among the partials; a mapper
+ * whose table never filled has it written as a run here (it is sorted already), so that all merge alike.
+ */
+function termRuns(partials: VocabularyPartial[], streamDir: string): TermRun[] {
+  return partials.flatMap((p, m): TermRun[] => {
+    if (p.runs.length > 0) return p.runs.map((r) => ({ ...r, mapper: m }));
+    const file = path.join(streamDir, `m${String(m).padStart(3, '0')}-table.run`);
+    const size = p.counts.length;
+    const { bytes, index } = writeTermRun(file, { terms: p.terms, size, counts: p.counts, docFreqs: p.docFreqs, flags: null }, p.order);
+    return [{ file, mapper: m, epoch: 0, continuedDoc: -1, openDoc: -1, bytes, index }];
+  });
+}
+
+/**
+ * More runs than a merge reads at once (MAX_FAN_IN) folded, on the threads, consecutive runs of a mapper into
+ * one, until there are few enough: each round a stage line ("fold"). The folded runs' files are removed.
+ */
+async function foldTermRuns(runs: TermRun[], exec: CountExec, progress: Progress, streamDir: string): Promise<TermRun[]> {
+  for (let round = 1; runs.length > MAX_FAN_IN; round++) {
+    // each mapper's runs in groups of consecutive epochs
+    const groups: TermRun[][] = [];
+    for (const r of runs) {
+      const g = groups[groups.length - 1];
+      if (g !== undefined && g[0].mapper === r.mapper && g.length < MAX_FAN_IN) g.push(r);
+      else groups.push([r]);
+    }
+    const folding = groups.filter((g) => g.length > 1);
+    if (folding.length === 0) break;
+    const tasks = folding.map((g, i) => ({ runs: g, file: path.join(streamDir, `fold-${round}-${String(i).padStart(6, '0')}.run`) }));
+    progress.start('fold', folding.flat().reduce((sum, r) => sum + r.bytes, 0), 'B');
+    let done = 0;
+    const folded = (await runMap('fold', () => ({}), tasks, exec.workers, (n) => progress.update((done += n)))).results;
+    for (const r of folding.flat()) rmSync(r.file, { force: true });
+    const next = groups.map((g) => (g.length > 1 ? folded[folding.indexOf(g)] : g[0]));
+    progress.end(`round ${round}: ${runs.length} term runs folded into ${next.length}`);
+    runs = next;
+  }
+  return runs;
 }
 
 /** The terms `ids` of `terms`, in that order, as term bytes. */

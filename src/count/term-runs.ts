@@ -2,8 +2,10 @@
  * Term runs: what a vocabulary mapper writes when its term table reaches its share of the memory budget (decision
  * 35). A run holds one epoch of the mapper's table (the terms it met since its last run) sorted by their bytes,
  * with each term's count, document frequency and two flags; the calling thread merges every mapper's runs (and
- * the tables of mappers that never spilled) by term bytes, summing as it goes, and keeps only the terms that
- * pass the vocabulary's count filters, so no table of all the corpus's distinct terms is ever held.
+ * the tables of mappers that never spilled, written as runs too) by term bytes, summing as it goes, and keeps
+ * only the terms that pass the vocabulary's count filters, so no table of all the corpus's distinct terms is
+ * ever held. The merge runs on the threads, each task over a range of terms (cut at terms of the runs' sparse
+ * indexes), so its results, in range order, are one merge's.
  *
  * A table can fill in the middle of a document. The document frequency then counts that document in both
  * epochs; the flags say so: OPEN, the term was in the document still being read when the run was written;
@@ -13,7 +15,7 @@
  *
  * Record layout (little-endian): u32 term length, u8 flags, f64 count, u32 document frequency, the term's bytes.
  */
-import { closeSync, openSync, readSync, rmSync } from 'node:fs';
+import { closeSync, openSync, readSync } from 'node:fs';
 import { wrapWriteError, writeBytesOrThrow } from '../store/atomic.js';
 import { giveBuffer, takeBuffer } from '../store/buffer-pool.js';
 import { compareBytes, sortByBytes, type TermBytes } from './term-table.js';
@@ -25,6 +27,16 @@ export const CONTINUED = 2;
 
 const HEADER_BYTES = 17;
 const BUFFER_BYTES = 1 << 20;
+/** Read buffer of a run being merged (MAX_FAN_IN of them at most a task). */
+const READ_BYTES = 1 << 18;
+/** A run's sparse index holds the term and file position of every INDEX_EVERY-th record. */
+const INDEX_EVERY = 4096;
+
+/** Terms of a run at known file positions, in order: where a merge of a range of terms starts reading it. */
+export interface RunIndex {
+  keys: TermBytes;
+  positions: Float64Array;
+}
 
 /** One written run: its file, whose mapper and which of its epochs, and the documents its flags refer to. */
 export interface TermRun {
@@ -37,6 +49,7 @@ export interface TermRun {
   openDoc: number;
   /** Size of the file. */
   bytes: number;
+  index: RunIndex;
 }
 
 /** A table's terms as a mapper hands them over: ids 0..n-1 with their bytes, sums and flags. */
@@ -49,77 +62,128 @@ export interface EpochTerms {
   flags: Uint8Array | null;
 }
 
-/** Writes one epoch's terms to `file`, sorted by their bytes; returns the bytes written. */
-export function writeTermRun(file: string, epoch: EpochTerms): number {
-  const { terms, size, counts, docFreqs, flags } = epoch;
-  const order = new Uint32Array(size);
-  for (let i = 0; i < size; i++) order[i] = i;
-  sortByBytes(terms.arena, terms.offsets, order);
-  let fd: number;
-  try {
-    fd = openSync(file, 'w');
-  } catch (e) {
-    throw wrapWriteError(e, file);
+/** Writes a run's records in order, with its sparse index. */
+class RunWriter {
+  private readonly fd: number;
+  private buf = takeBuffer(BUFFER_BYTES);
+  private fill = 0;
+  private written = 0;
+  private records = 0;
+  private keys = new Uint8Array(1024);
+  private keyFill = 0;
+  private readonly keyOffsets: number[] = [0];
+  private readonly positions: number[] = [];
+
+  constructor(private readonly file: string) {
+    try {
+      this.fd = openSync(file, 'w');
+    } catch (e) {
+      giveBuffer(this.buf);
+      throw wrapWriteError(e, file);
+    }
   }
-  let buf = takeBuffer(BUFFER_BYTES);
-  let fill = 0;
-  let written = 0;
+
+  append(bytes: Uint8Array, start: number, end: number, flags: number, count: number, docFreq: number): void {
+    const len = end - start;
+    if (this.fill + HEADER_BYTES + len > this.buf.length) {
+      this.flush();
+      if (HEADER_BYTES + len > this.buf.length) {
+        giveBuffer(this.buf);
+        this.buf = takeBuffer(HEADER_BYTES + len);
+      }
+    }
+    const { buf, fill } = this;
+    if (this.records++ % INDEX_EVERY === 0) {
+      if (this.keyFill + len > this.keys.length) {
+        const keys = new Uint8Array(Math.max(2 * this.keys.length, this.keyFill + len));
+        keys.set(this.keys.subarray(0, this.keyFill));
+        this.keys = keys;
+      }
+      for (let k = 0; k < len; k++) this.keys[this.keyFill + k] = bytes[start + k];
+      this.keyFill += len;
+      this.keyOffsets.push(this.keyFill);
+      this.positions.push(this.written + fill);
+    }
+    buf.writeUInt32LE(len, fill);
+    buf[fill + 4] = flags;
+    buf.writeDoubleLE(count, fill + 5);
+    buf.writeUInt32LE(docFreq, fill + 13);
+    for (let k = 0; k < len; k++) buf[fill + HEADER_BYTES + k] = bytes[start + k];
+    this.fill = fill + HEADER_BYTES + len;
+  }
+
+  private flush(): void {
+    writeBytesOrThrow(this.fd, this.buf, this.fill, this.file);
+    this.written += this.fill;
+    this.fill = 0;
+  }
+
+  /** Writes what is buffered and closes the file: its size and sparse index. */
+  close(): { bytes: number; index: RunIndex } {
+    try {
+      this.flush();
+    } finally {
+      this.release();
+    }
+    const index = { keys: { arena: this.keys.slice(0, this.keyFill), offsets: Uint32Array.from(this.keyOffsets) }, positions: Float64Array.from(this.positions) };
+    return { bytes: this.written, index };
+  }
+
+  /** Closes the file without writing more (after a failure). */
+  release(): void {
+    if (this.buf.length === 0) return;
+    closeSync(this.fd);
+    giveBuffer(this.buf);
+    this.buf = Buffer.alloc(0);
+  }
+}
+
+/**
+ * Writes one epoch's terms to `file` in the order of their bytes (`sorted`: the ids in that order, when known);
+ * returns the bytes written and the run's sparse index.
+ */
+export function writeTermRun(file: string, epoch: EpochTerms, sorted: Uint32Array | null = null): { bytes: number; index: RunIndex } {
+  const { terms, size, counts, docFreqs, flags } = epoch;
+  let order = sorted;
+  if (order === null) {
+    order = new Uint32Array(size);
+    for (let i = 0; i < size; i++) order[i] = i;
+    sortByBytes(terms.arena, terms.offsets, order);
+  }
+  const writer = new RunWriter(file);
   try {
     for (let i = 0; i < size; i++) {
       const id = order[i];
-      const s = terms.offsets[id];
-      const len = terms.offsets[id + 1] - s;
-      if (fill + HEADER_BYTES + len > buf.length) {
-        writeBytesOrThrow(fd, buf, fill, file);
-        written += fill;
-        fill = 0;
-        if (HEADER_BYTES + len > buf.length) {
-          giveBuffer(buf);
-          buf = takeBuffer(HEADER_BYTES + len);
-        }
-      }
-      buf.writeUInt32LE(len, fill);
-      buf[fill + 4] = flags === null ? 0 : flags[id];
-      buf.writeDoubleLE(counts[id], fill + 5);
-      buf.writeUInt32LE(docFreqs[id], fill + 13);
-      fill += HEADER_BYTES;
-      for (let k = 0; k < len; k++) buf[fill + k] = terms.arena[s + k];
-      fill += len;
+      writer.append(terms.arena, terms.offsets[id], terms.offsets[id + 1], flags === null ? 0 : flags[id], counts[id], docFreqs[id]);
     }
-    writeBytesOrThrow(fd, buf, fill, file);
-    written += fill;
+    return writer.close();
   } finally {
-    closeSync(fd);
-    giveBuffer(buf);
+    writer.release();
   }
-  return written;
 }
 
-/** Terms in byte order from one source, one at a time: the current term is bytes[start, end) with its sums. */
-abstract class TermSource {
-  bytes: Uint8Array = new Uint8Array(0);
+/** The terms of a range of one run file, read record by record through one buffer: the current term is bytes[start, end). */
+class RunSource {
+  bytes: Uint8Array;
   start = 0;
   end = 0;
   count = 0;
   docFreq = 0;
   flags = 0;
-  /** Bytes of its file read so far (0 for a table). */
+  /** Bytes of the file read so far, from where the range's reading started. */
   read = 0;
-  /** Moves to the next term; false at the end. */
-  abstract next(): boolean;
-  abstract close(): void;
-}
-
-/** A run file read back record by record through one buffer. */
-class RunSource extends TermSource {
   private buf: Buffer;
   private fill = 0;
   private pos = 0;
+  private filePos: number;
   private readonly fd: number;
+  /** Still before the range's first term. */
+  private before: boolean;
 
-  constructor(private readonly file: string) {
-    super();
-    this.buf = takeBuffer(BUFFER_BYTES);
+  constructor(private readonly file: string, from: number, private readonly lo: Uint8Array | null, private readonly hi: Uint8Array | null) {
+    this.filePos = from;
+    this.before = lo !== null;
+    this.buf = takeBuffer(READ_BYTES);
     this.bytes = this.buf;
     try {
       this.fd = openSync(file, 'r');
@@ -129,7 +193,21 @@ class RunSource extends TermSource {
     }
   }
 
+  /** Moves to the next term of the range; false past its end. */
   next(): boolean {
+    for (;;) {
+      if (!this.record()) return false;
+      const { lo, hi } = this;
+      if (this.before) {
+        if (compareBytes(this.bytes, this.start, this.end, lo!, 0, lo!.length) < 0) continue;
+        this.before = false;
+      }
+      return hi === null || compareBytes(this.bytes, this.start, this.end, hi, 0, hi.length) < 0;
+    }
+  }
+
+  /** Reads the next record; false at the end of the file. */
+  private record(): boolean {
     if (!this.ensure(HEADER_BYTES)) {
       if (this.fill - this.pos !== 0) throw new Error(`${this.file}: term run ends inside a record`);
       return false;
@@ -159,9 +237,10 @@ class RunSource extends TermSource {
     this.pos = 0;
     this.bytes = this.buf;
     while (this.fill < n) {
-      const got = readSync(this.fd, this.buf, this.fill, this.buf.length - this.fill, this.read);
+      const got = readSync(this.fd, this.buf, this.fill, this.buf.length - this.fill, this.filePos);
       if (got <= 0) return false;
       this.fill += got;
+      this.filePos += got;
       this.read += got;
     }
     return true;
@@ -173,27 +252,38 @@ class RunSource extends TermSource {
   }
 }
 
-/** A mapper's table held in memory (it never spilled), in the order of its terms' bytes. */
-class TableSource extends TermSource {
-  private i = -1;
-
-  constructor(private readonly table: { terms: TermBytes; order: Uint32Array; counts: Float64Array; docFreqs: Uint32Array }) {
-    super();
-    this.bytes = table.terms.arena;
+/** Where reading `run` for terms from `lo` on starts: the position of its last indexed term before lo. */
+function startOf(run: TermRun, lo: Uint8Array | null): number {
+  if (lo === null) return 0;
+  const { keys, positions } = run.index;
+  let a = 0;
+  let b = positions.length;
+  // the first indexed term not before lo is b; the one before it (if any) is where to start
+  while (a < b) {
+    const m = (a + b) >>> 1;
+    if (compareBytes(keys.arena, keys.offsets[m], keys.offsets[m + 1], lo, 0, lo.length) < 0) a = m + 1;
+    else b = m;
   }
+  return a === 0 ? 0 : positions[a - 1];
+}
 
-  next(): boolean {
-    const { order, terms, counts, docFreqs } = this.table;
-    if (++this.i >= order.length) return false;
-    const id = order[this.i];
-    this.start = terms.offsets[id];
-    this.end = terms.offsets[id + 1];
-    this.count = counts[id];
-    this.docFreq = docFreqs[id];
-    return true;
+/**
+ * Terms that cut the runs' terms into about `parts` ranges of equal numbers of terms, from the runs' sparse
+ * indexes (every index term stands for INDEX_EVERY terms of its run): ranges [null, k1), [k1, k2), ... [kn, null).
+ */
+export function termRanges(runs: TermRun[], parts: number): { lo: Uint8Array | null; hi: Uint8Array | null }[] {
+  const keys: Buffer[] = [];
+  for (const r of runs) {
+    const { arena, offsets } = r.index.keys;
+    for (let k = 0; k + 1 < offsets.length; k++) keys.push(Buffer.from(arena.buffer, arena.byteOffset + offsets[k], offsets[k + 1] - offsets[k]));
   }
-
-  close(): void {}
+  keys.sort(Buffer.compare);
+  const cuts: Uint8Array[] = [];
+  for (let p = 1; p < parts; p++) {
+    const key = keys[Math.floor((p * keys.length) / parts)];
+    if (key !== undefined && (cuts.length === 0 || Buffer.compare(key, cuts[cuts.length - 1]) > 0)) cuts.push(new Uint8Array(key));
+  }
+  return [null, ...cuts].map((lo, i) => ({ lo, hi: cuts[i] ?? null }));
 }
 
 /** The kept terms of a merge, in byte order, with their sums. */
@@ -205,62 +295,155 @@ export interface KeptTerms {
   distinct: number;
 }
 
-/** A source of the merge and the mapper and epoch it holds (ties of equal terms go in that order). */
-export interface MergeInput {
-  mapper: number;
-  epoch: number;
-  run: TermRun | null;
-  table: { terms: TermBytes; order: Uint32Array; counts: Float64Array; docFreqs: Uint32Array } | null;
-}
-
 /** Distinct terms merged between two progress reports. */
 const PROGRESS_TERMS = 1 << 16;
 
+/** The vocabulary filters the merge applies. */
+export interface KeptFilter {
+  minCount: number;
+  minDocFreq: number;
+  maxSize: number;
+}
+
 /**
- * Every source's terms merged by their bytes, equal terms summed (a document counted in two consecutive runs of
- * one mapper counted once), keeping only those with count ≥ minCount and document frequency ≥ minDocFreq. The
- * run files are removed once read. onProgress hears the bytes of the runs read so far.
+ * The runs' terms from lo (inclusive; null: the first) to hi (exclusive; null: past the last) merged by their
+ * bytes, equal terms summed (a document counted in two consecutive runs of one mapper counted once), keeping
+ * only those with count ≥ minCount and document frequency ≥ minDocFreq (and with maxSize, at most twice that
+ * many, the first by count). `runs` in mapper, then epoch order. onProgress hears bytes read as they are.
  */
-export function mergeTermRuns(
-  inputs: MergeInput[], v: { minCount: number; minDocFreq: number; maxSize: number }, onProgress: (bytes: number) => void = () => {},
+export function mergeTermRange(
+  runs: TermRun[], v: KeptFilter, lo: Uint8Array | null, hi: Uint8Array | null, onProgress: (bytes: number) => void = () => {},
 ): KeptTerms {
-  const order = inputs.map((_, i) => i).sort((a, b) => inputs[a].mapper - inputs[b].mapper || inputs[a].epoch - inputs[b].epoch);
-  const sorted = order.map((i) => inputs[i]);
-  const sources: TermSource[] = [];
+  const sources: RunSource[] = [];
   try {
-    for (const input of sorted) sources.push(input.run !== null ? new RunSource(input.run.file) : new TableSource(input.table!));
-    return mergeSources(sorted, sources, v, onProgress);
+    for (const run of runs) sources.push(new RunSource(run.file, startOf(run, lo), lo, hi));
+    return mergeSources(runs, sources, v, reporter(sources, onProgress));
   } finally {
     for (const s of sources) s.close();
-    for (const input of sorted) if (input.run !== null) rmSync(input.run.file, { force: true });
   }
 }
 
-function mergeSources(
-  inputs: MergeInput[], sources: TermSource[], { minCount, minDocFreq, maxSize }: { minCount: number; minDocFreq: number; maxSize: number },
-  onProgress: (bytes: number) => void,
-): KeptTerms {
-  // a binary heap of source indexes by current term, ties by index (so a mapper's runs come in epoch order)
-  const less = (a: number, b: number): boolean => {
-    const x = sources[a];
-    const y = sources[b];
+/** A function that tells onProgress the bytes the sources read since it last did. */
+function reporter(sources: RunSource[], onProgress: (bytes: number) => void): () => void {
+  let reported = 0;
+  return () => {
+    const read = sources.reduce((sum, x) => sum + x.read, 0);
+    onProgress(read - reported);
+    reported = read;
+  };
+}
+
+/** Kept terms of consecutive ranges, in order, as one list. */
+export function concatKept(parts: KeptTerms[]): KeptTerms {
+  let n = 0;
+  let bytes = 0;
+  let distinct = 0;
+  for (const p of parts) {
+    n += p.counts.length;
+    bytes += p.terms.offsets[p.counts.length];
+    distinct += p.distinct;
+  }
+  const arena = new Uint8Array(bytes);
+  const offsets = new Uint32Array(n + 1);
+  const counts = new Float64Array(n);
+  const docFreqs = new Uint32Array(n);
+  let at = 0;
+  let fill = 0;
+  for (const p of parts) {
+    const m = p.counts.length;
+    arena.set(p.terms.arena.subarray(0, p.terms.offsets[m]), fill);
+    for (let i = 0; i < m; i++) offsets[at + i + 1] = fill + p.terms.offsets[i + 1];
+    counts.set(p.counts, at);
+    docFreqs.set(p.docFreqs, at);
+    at += m;
+    fill += p.terms.offsets[m];
+  }
+  return { terms: { arena, offsets }, counts, docFreqs, distinct };
+}
+
+/**
+ * The terms of several runs' sources in byte order, each once with its sums: a binary heap of the sources by
+ * current term, ties by index, so that equal terms come in the order of the runs (a mapper's in epoch order).
+ * A document counted in two consecutive runs of one mapper (OPEN in the earlier, CONTINUED in the later, the
+ * same document) is counted once.
+ */
+class SummedTerms {
+  /** The current term: term[0, len), a copy (the sources move on while it is summed). */
+  term = new Uint8Array(256);
+  len = 0;
+  count = 0;
+  docFreq = 0;
+  /** The first and last runs (indexes) that hold the term, and its flags there. */
+  first = 0;
+  firstFlags = 0;
+  last = 0;
+  lastFlags = 0;
+  private readonly heap: number[] = [];
+
+  constructor(private readonly runs: TermRun[], private readonly sources: RunSource[]) {
+    for (let i = 0; i < sources.length; i++) if (sources[i].next()) this.heap.push(i);
+    for (let i = (this.heap.length >> 1) - 1; i >= 0; i--) this.down(i);
+  }
+
+  private less(a: number, b: number): boolean {
+    const x = this.sources[a];
+    const y = this.sources[b];
     const c = compareBytes(x.bytes, x.start, x.end, y.bytes, y.start, y.end);
     return c < 0 || (c === 0 && a < b);
-  };
-  const heap: number[] = [];
-  const down = (at: number): void => {
+  }
+
+  private down(at: number): void {
+    const { heap } = this;
     for (;;) {
       const l = 2 * at + 1;
       if (l >= heap.length) return;
-      const c = l + 1 < heap.length && less(heap[l + 1], heap[l]) ? l + 1 : l;
-      if (!less(heap[c], heap[at])) return;
-      [heap[c], heap[at]] = [heap[at], heap[c]];
+      const c = l + 1 < heap.length && this.less(heap[l + 1], heap[l]) ? l + 1 : l;
+      if (!this.less(heap[c], heap[at])) return;
+      const t = heap[c];
+      heap[c] = heap[at];
+      heap[at] = t;
       at = c;
     }
-  };
-  for (let i = 0; i < sources.length; i++) if (sources[i].next()) heap.push(i);
-  for (let i = (heap.length >> 1) - 1; i >= 0; i--) down(i);
+  }
 
+  /** Moves to the next term; false after the last. */
+  next(): boolean {
+    const { heap, sources, runs } = this;
+    if (heap.length === 0) return false;
+    const head = sources[heap[0]];
+    const len = head.end - head.start;
+    if (len > this.term.length) this.term = new Uint8Array(Math.max(2 * this.term.length, len));
+    const term = this.term;
+    for (let k = 0; k < len; k++) term[k] = head.bytes[head.start + k];
+    this.len = len;
+    this.count = 0;
+    this.docFreq = 0;
+    this.first = heap[0];
+    this.firstFlags = head.flags;
+    let prev = -1;
+    do {
+      const top = heap[0];
+      const s = sources[top];
+      this.count += s.count;
+      this.docFreq += s.docFreq;
+      if (prev >= 0 && runs[prev].mapper === runs[top].mapper && (this.lastFlags & OPEN) !== 0 && (s.flags & CONTINUED) !== 0
+        && runs[prev].openDoc === runs[top].continuedDoc) this.docFreq--;
+      prev = top;
+      this.last = top;
+      this.lastFlags = s.flags;
+      if (s.next()) this.down(0);
+      else {
+        heap[0] = heap[heap.length - 1];
+        heap.pop();
+        if (heap.length > 0) this.down(0);
+      }
+    } while (heap.length > 0 && compareBytes(sources[heap[0]].bytes, sources[heap[0]].start, sources[heap[0]].end, term, 0, len) === 0);
+    return true;
+  }
+}
+
+function mergeSources(runs: TermRun[], sources: RunSource[], { minCount, minDocFreq, maxSize }: KeptFilter, report: () => void): KeptTerms {
+  const terms = new SummedTerms(runs, sources);
   let arena = new Uint8Array(1 << 16);
   let fill = 0;
   let cap = 1024;
@@ -269,47 +452,20 @@ function mergeSources(
   let docFreqs = new Uint32Array(cap);
   let kept = 0;
   let distinct = 0;
-  while (heap.length > 0) {
-    const first = heap[0];
-    const { bytes, start, end } = sources[first];
-    const len = end - start;
-    // the term, copied: the sources move on while it is summed
+  while (terms.next()) {
+    if (++distinct % PROGRESS_TERMS === 0) report();
+    const { count, docFreq, len } = terms;
+    if (count < minCount || docFreq < minDocFreq) continue;
+    if (maxSize > 0 && kept === 2 * maxSize) {
+      kept = keepMost(maxSize, kept, arena, offsets, counts, docFreqs);
+      fill = offsets[kept];
+    }
     if (fill + len > arena.length) {
       let n = arena.length * 2;
       while (n < fill + len) n *= 2;
       const grown = new Uint8Array(n);
       grown.set(arena.subarray(0, fill));
       arena = grown;
-    }
-    for (let k = 0; k < len; k++) arena[fill + k] = bytes[start + k];
-    let count = 0;
-    let docFreq = 0;
-    let prev = -1;
-    let prevFlags = 0;
-    do {
-      const top = heap[0];
-      const s = sources[top];
-      count += s.count;
-      docFreq += s.docFreq;
-      // a mapper's consecutive runs of one term: the earlier's open document, the later's continued one
-      if (prev >= 0 && inputs[prev].mapper === inputs[top].mapper && (prevFlags & OPEN) !== 0 && (s.flags & CONTINUED) !== 0
-        && inputs[prev].run!.openDoc === inputs[top].run!.continuedDoc) docFreq--;
-      prev = top;
-      prevFlags = s.flags;
-      if (s.next()) down(0);
-      else {
-        heap[0] = heap[heap.length - 1];
-        heap.pop();
-        if (heap.length > 0) down(0);
-      }
-    } while (heap.length > 0 && compareBytes(sources[heap[0]].bytes, sources[heap[0]].start, sources[heap[0]].end, arena, fill, fill + len) === 0);
-    if (++distinct % PROGRESS_TERMS === 0) onProgress(sources.reduce((sum, x) => sum + x.read, 0));
-    if (count < minCount || docFreq < minDocFreq) continue;
-    if (maxSize > 0 && kept === 2 * maxSize) {
-      kept = keepMost(maxSize, kept, arena, offsets, counts, docFreqs);
-      // the term being added, copied at fill above, moves down after the kept ones
-      arena.copyWithin(offsets[kept], fill, fill + len);
-      fill = offsets[kept];
     }
     if (kept === cap) {
       cap *= 2;
@@ -323,12 +479,50 @@ function mergeSources(
       d.set(docFreqs);
       docFreqs = d;
     }
+    arena.set(terms.term.subarray(0, len), fill);
     counts[kept] = count;
     docFreqs[kept] = docFreq;
     fill += len;
     offsets[++kept] = fill;
   }
+  report();
   return { terms: { arena: arena.subarray(0, fill), offsets: offsets.subarray(0, kept + 1) }, counts: counts.subarray(0, kept), docFreqs: docFreqs.subarray(0, kept), distinct };
+}
+
+/** Most runs a merge reads at once (open files and read buffers); more are folded first (foldRuns). */
+export const MAX_FAN_IN = 64;
+
+/**
+ * Consecutive runs of one mapper (epoch order) merged into one run at `file`, nothing left out: sums as the final
+ * merge makes them, a document counted in two of them counted once. The new run begins where the first began
+ * and ends where the last ended: a term is CONTINUED when its first run has it so and began inside the same
+ * document as the first run (the document spans the runs before), OPEN when its last run has it so and ended
+ * inside the same document as the last run.
+ */
+export function foldRuns(runs: TermRun[], file: string, onProgress: (bytes: number) => void = () => {}): TermRun {
+  const first = runs[0];
+  const last = runs[runs.length - 1];
+  const sources: RunSource[] = [];
+  const writer = new RunWriter(file);
+  try {
+    for (const run of runs) sources.push(new RunSource(run.file, 0, null, null));
+    const terms = new SummedTerms(runs, sources);
+    const report = reporter(sources, onProgress);
+    let n = 0;
+    while (terms.next()) {
+      let flags = 0;
+      if ((terms.firstFlags & CONTINUED) !== 0 && runs[terms.first].continuedDoc === first.continuedDoc) flags |= CONTINUED;
+      if ((terms.lastFlags & OPEN) !== 0 && runs[terms.last].openDoc === last.openDoc) flags |= OPEN;
+      writer.append(terms.term, 0, terms.len, flags, terms.count, terms.docFreq);
+      if (++n % PROGRESS_TERMS === 0) report();
+    }
+    const { bytes, index } = writer.close();
+    report();
+    return { file, mapper: first.mapper, epoch: first.epoch, continuedDoc: first.continuedDoc, openDoc: last.openDoc, bytes, index };
+  } finally {
+    writer.release();
+    for (const x of sources) x.close();
+  }
 }
 
 /**

@@ -1,8 +1,10 @@
 /** The kinds of map task the local executor runs, and how a thread (or the main thread) starts each. */
 import type { InputSplit } from '../ingest/split.js';
 import {
-  TokenMapper, VocabularyMapper, transferablesOf as countTransferables, type SplitResult, type TokenSetup, type VocabularyPartial, type VocabularySetup,
+  RunFolder, TermMerger, TokenMapper, type FoldTask, VocabularyMapper, transferablesOf as countTransferables, type SplitResult, type TermMergeSetup, type TermRange, type TokenSetup,
+  type VocabularyPartial, type VocabularySetup,
 } from '../count/map.js';
+import type { KeptTerms, TermRun } from '../count/term-runs.js';
 import type { TokenStreamRef } from '../count/token-stream.js';
 import { RowsMapper, type RowsPartial, type RowsResult, type RowsSetup, type RowsTask } from '../count/rows-map.js';
 import { ChunkMapper, TouchMapper, type ChunkSetup, type ChunkTask, type TouchSetup } from '../count/chunk-map.js';
@@ -21,6 +23,8 @@ export interface Mapper<Task, Result, Partial> {
 export interface MapKinds {
   vocabulary: { setup: VocabularySetup; task: InputSplit; result: SplitResult; partial: VocabularyPartial };
   tokens: { setup: TokenSetup; task: InputSplit; result: TokenStreamRef; partial: Record<string, never> };
+  terms: { setup: TermMergeSetup; task: TermRange; result: KeptTerms; partial: Record<string, never> };
+  fold: { setup: Record<string, never>; task: FoldTask; result: TermRun; partial: Record<string, never> };
   chunk: { setup: ChunkSetup; task: ChunkTask; result: SliceCounts; partial: Record<string, never> };
   touch: { setup: TouchSetup; task: null; result: null; partial: Record<string, never> };
   gather: { setup: GatherSetup; task: GatherTask; result: null; partial: Record<string, never> };
@@ -43,6 +47,14 @@ export async function createMapper(kind: MapKind, setup: unknown): Promise<AnyMa
   if (kind === 'tokens') {
     const m = await TokenMapper.create(setup as TokenSetup);
     return { run: (t, p) => m.run(t as InputSplit, p), finish: () => m.finish() };
+  }
+  if (kind === 'fold') {
+    const m = new RunFolder();
+    return { run: async (t, p) => m.run(t as FoldTask, p), finish: () => m.finish() };
+  }
+  if (kind === 'terms') {
+    const m = new TermMerger(setup as TermMergeSetup);
+    return { run: async (t, p) => m.run(t as TermRange, p), finish: () => m.finish() };
   }
   if (kind === 'weight') {
     // loaded only here: the Arrow reader and the schemes are not needed by the counting threads
