@@ -8,7 +8,7 @@ import os from 'node:os';
 import path from 'node:path';
 import { KindredError } from '../errors.js';
 import { TOOL_VERSION } from '../version.js';
-import { wrapWriteError } from './atomic.js';
+import { temporarySibling, wrapWriteError } from './atomic.js';
 
 /** Who holds a lock. */
 export interface LockOwner {
@@ -82,31 +82,49 @@ async function readLock(file: string): Promise<LockState> {
   return { kind: 'unreadable', text, ageMs };
 }
 
+/**
+ * Creates the lock `file` naming `owner`, or returns false when it exists. The content is written whole to a
+ * temporary sibling and synced, then linked into place: link fails when the lock exists, and the lock never
+ * exists without its content, so a build killed while taking it leaves no empty lock that the next build would
+ * have to wait out (UNREADABLE_LOCK_GRACE_MS).
+ */
 async function createLock(file: string, owner: LockOwner): Promise<boolean> {
-  let handle: fsp.FileHandle;
+  const tmp = temporarySibling(file, 'lock');
   try {
-    handle = await fsp.open(file, 'wx');
-  } catch (e) {
-    if (isCode(e, 'EEXIST')) return false;
-    // the work area was removed by a build that just finished: make it again and retry
-    if (isCode(e, 'ENOENT')) {
-      await fsp.mkdir(path.dirname(file), { recursive: true }).catch((m: unknown) => {
-        throw wrapWriteError(m, path.dirname(file));
-      });
-      return false;
+    let handle: fsp.FileHandle;
+    try {
+      handle = await fsp.open(tmp, 'wx');
+    } catch (e) {
+      if (isCode(e, 'ENOENT')) return makeArea(file);
+      throw wrapWriteError(e, file);
     }
-    throw wrapWriteError(e, file);
+    try {
+      await handle.writeFile(JSON.stringify(owner, null, 2) + '\n');
+      await handle.sync();
+    } catch (e) {
+      throw wrapWriteError(e, file, true);
+    } finally {
+      await handle.close();
+    }
+    try {
+      await fsp.link(tmp, file);
+    } catch (e) {
+      if (isCode(e, 'EEXIST')) return false;
+      if (isCode(e, 'ENOENT')) return makeArea(file);
+      throw wrapWriteError(e, file);
+    }
+    return true;
+  } finally {
+    await fsp.rm(tmp, { force: true }).catch(() => undefined);
   }
-  try {
-    await handle.writeFile(JSON.stringify(owner, null, 2) + '\n');
-    await handle.sync();
-  } catch (e) {
-    await handle.close().catch(() => undefined);
-    await fsp.rm(file, { force: true }).catch(() => undefined);
-    throw wrapWriteError(e, file);
-  }
-  await handle.close();
-  return true;
+}
+
+/** The work area was removed by a build that just finished: makes it again; the caller retries (false). */
+async function makeArea(file: string): Promise<false> {
+  await fsp.mkdir(path.dirname(file), { recursive: true }).catch((m: unknown) => {
+    throw wrapWriteError(m, path.dirname(file));
+  });
+  return false;
 }
 
 /**
