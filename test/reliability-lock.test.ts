@@ -116,6 +116,42 @@ describe('build lock', () => {
     expect(r.stderr).toMatch(/kindred: note: taking over the lock .*: it names no owner and is \d+ s old/);
   });
 
+  it('a takeover guard left by a build that died (under its grace time) is waited out, then the stale lock taken over once', async () => {
+    const dir = path.join(work, 'guarded');
+    const file = path.join(dir, 'lock');
+    mkdirSync(dir, { recursive: true });
+    const pid = deadPid();
+    writeFileSync(file, JSON.stringify({ pid, hostname: os.hostname(), startedAt: '2030-01-01T03:00:00.000Z', outDir: '/o', toolVersion: 'x' }));
+    // the guard's taker died 9.6 s ago: 0.4 s more to its 10 s grace (20 quick attempts used to give up first)
+    writeFileSync(`${file}.takeover`, '');
+    const t = Date.now() / 1000 - 9.6;
+    utimesSync(`${file}.takeover`, t, t);
+    const notes: string[] = [];
+    const lock = await acquireBuildLock(file, '/o', (m) => notes.push(m));
+    expect(JSON.parse(readFileSync(file, 'utf8')).pid).toBe(process.pid);
+    expect(notes).toHaveLength(1);
+    expect(notes[0]).toMatch(new RegExp(`left by pid ${pid}`));
+    await lock.release();
+  });
+
+  it('on a file system without hard links (link fails with EPERM) the lock is created in place, and the build runs', () => {
+    const out = path.join(work, 'no-links', 'published');
+    // test/reliability-fs-faults.mjs: a link to the lock fails at once; writes to it go through
+    const r = kindred(['build', config, '--out', out], { write: 'kindred/lock$', code: 'EPERM', afterBytes: 1 << 20 });
+    expect(r.status, r.stderr).toBe(0);
+    expect(existsSync(lockOf(out))).toBe(false);
+  });
+
+  it('the temporary file of a lock being taken, left by a build killed then, is removed by the next build', () => {
+    const out = path.join(work, 'killed-taking', 'published');
+    mkdirSync(`${out}.kindred`, { recursive: true });
+    const stray = path.join(`${out}.kindred`, '.kindred-lock-lock-12345-x-0');
+    writeFileSync(stray, '{');
+    const r = kindred(['build', config, '--out', out]);
+    expect(r.status, r.stderr).toBe(0);
+    expect(existsSync(stray)).toBe(false);
+  });
+
   it('in one process: a second acquire is refused until the first is released; the lock names its owner', async () => {
     const dir = path.join(work, 'library');
     const file = path.join(dir, 'lock');

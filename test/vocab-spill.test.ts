@@ -12,8 +12,8 @@ import os from 'node:os';
 import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { runBuild } from '../src/build.js';
-import { decodeTerms, termTableLimits } from '../src/count/passes.js';
-import { concatKept, mergeTermRange, termRanges, writeTermRun, type TermRun } from '../src/count/term-runs.js';
+import { decodeTerms, foldTermRuns, termTableLimits } from '../src/count/passes.js';
+import { MAX_FAN_IN, concatKept, mergeTermRange, termRanges, writeTermRun, type TermRun } from '../src/count/term-runs.js';
 import type { Progress } from '../src/progress.js';
 import { readVocabulary } from '../src/store/vocab-file.js';
 import { createTokenizer } from '../src/tokenize/index.js';
@@ -115,7 +115,7 @@ describe('term tables written to runs', () => {
       expect(whole.summaries).not.toMatch(/runs/);
       expect(spilled.summaries).toMatch(/term tables written to \d{3,} runs/);
       // more runs than a merge reads at once: folded first (the flags carried over), as a large corpus's are
-      expect(spilled.summaries).toMatch(/round 1: \d+ term runs folded into \d+/);
+      expect(spilled.summaries).toMatch(/round 1: \d+ term runs, \d+ of them folded into \d+/);
       expect(fileChecksums(spilled.m)).toEqual(fileChecksums(whole.m));
 
       const v = (raw.vocabulary ?? {}) as { minCount?: number; minDocFreq?: number; maxSize?: number };
@@ -144,30 +144,37 @@ describe('token streams of a kept vocabulary', () => {
   });
 });
 
+/** Runs of up to `size` random terms of `words` (for the given mappers, in order), and the sums a map keeps of them. */
+function makeRuns(name: string, mappers: number[], size: number, words = 20000) {
+  const rnd = generator(mappers.length);
+  const sums = new Map<string, { count: number; docFreq: number }>();
+  const epochs = new Map<number, number>();
+  const runs: TermRun[] = mappers.map((mapper, r) => {
+    const list = [...new Set(Array.from({ length: size }, () => word(rnd(words))))];
+    const bytes = list.map((t) => Buffer.from(t));
+    const offsets = new Uint32Array(list.length + 1);
+    bytes.forEach((b, i) => (offsets[i + 1] = offsets[i] + b.length));
+    const counts = Float64Array.from(list, () => 1 + rnd(3));
+    const docFreqs = Uint32Array.from(counts, (c) => 1 + rnd(c));
+    list.forEach((t, i) => {
+      const e = sums.get(t) ?? { count: 0, docFreq: 0 };
+      e.count += counts[i];
+      e.docFreq += docFreqs[i];
+      sums.set(t, e);
+    });
+    const file = path.join(work, `${name}-${r}.run`);
+    const { bytes: n, index } = writeTermRun(file, { terms: { arena: new Uint8Array(Buffer.concat(bytes)), offsets }, size: list.length, counts, docFreqs, flags: null });
+    const epoch = epochs.get(mapper) ?? 0;
+    epochs.set(mapper, epoch + 1);
+    return { file, mapper, epoch, continuedDoc: -1, openDoc: -1, bytes: n, index };
+  });
+  return { runs, sums };
+}
+
 describe('merging term runs by ranges of terms', () => {
-  it('gives, range after range, the sums of a map keyed by the terms (runs of 5,000-12,000 terms, seeks inside them)', () => {
-    const rnd = generator(3);
-    const sums = new Map<string, { count: number; docFreq: number }>();
-    const runs: TermRun[] = [];
-    for (const [r, size] of [5000, 12000, 9000].entries()) {
-      const terms = new Set<string>();
-      while (terms.size < size) terms.add(word(rnd(40000)) + (rnd(3) === 0 ? 'x'.repeat(rnd(12)) : ''));
-      const list = [...terms];
-      const bytes = list.map((t) => Buffer.from(t));
-      const offsets = new Uint32Array(list.length + 1);
-      bytes.forEach((b, i) => (offsets[i + 1] = offsets[i] + b.length));
-      const counts = Float64Array.from(list, () => 1 + rnd(4));
-      const docFreqs = Uint32Array.from(counts, (c) => 1 + rnd(c));
-      list.forEach((t, i) => {
-        const e = sums.get(t) ?? { count: 0, docFreq: 0 };
-        e.count += counts[i];
-        e.docFreq += docFreqs[i];
-        sums.set(t, e);
-      });
-      const file = path.join(work, `unit-${r}.run`);
-      const { bytes: n, index } = writeTermRun(file, { terms: { arena: new Uint8Array(Buffer.concat(bytes)), offsets }, size, counts, docFreqs, flags: null });
-      runs.push({ file, mapper: r, epoch: 0, continuedDoc: -1, openDoc: -1, bytes: n, index });
-    }
+  it('gives, range after range, the sums of a map keyed by the terms (runs of about 11,000 terms, seeks inside them)', () => {
+    const { runs, sums } = makeRuns('ranges', [0, 1, 2], 12000, 60000);
+    expect(Math.min(...runs.map((r) => r.index.positions.length))).toBeGreaterThan(1);
     const filter = { minCount: 3, minDocFreq: 2, maxSize: 0 };
     const ranges = termRanges(runs, 7);
     expect(ranges.length).toBe(7);
@@ -178,6 +185,29 @@ describe('merging term runs by ranges of terms', () => {
     expect([...merged.counts]).toEqual(want.map(([, e]) => e.count));
     expect([...merged.docFreqs]).toEqual(want.map(([, e]) => e.docFreq));
   });
+});
+
+describe('folding term runs down to what a merge reads at once', () => {
+  const cases: [string, number[], number][] = [
+    // 3 threads of 30 runs each: 90 runs, 27 of them folded (into one), no more than bring them to 64
+    ['3 mappers x 30 runs', [0, 1, 2].flatMap((m) => Array.from({ length: 30 }, () => m)), 27],
+    // 70 threads of one run each (more threads than a merge reads): runs of consecutive mappers folded together
+    ['70 mappers x 1 run', Array.from({ length: 70 }, (_, m) => m), 7],
+  ];
+  for (const [name, mappers, foldedRuns] of cases) {
+    it(`${name}: ${MAX_FAN_IN} runs after folding, and the same sums`, async () => {
+      const { runs, sums } = makeRuns(name.replace(/\W+/g, '-'), mappers, 300);
+      const progress = recorder();
+      const folded = await foldTermRuns(runs, { baseDir: work, workers: 2 }, progress, work);
+      expect(folded.length).toBe(MAX_FAN_IN);
+      expect(progress.summaries).toEqual([`round 1: ${runs.length} term runs, ${foldedRuns} of them folded into ${foldedRuns - (runs.length - MAX_FAN_IN)}`]);
+      const merged = concatKept(termRanges(folded, 3).map((r) => mergeTermRange(folded, { minCount: 1, minDocFreq: 1, maxSize: 0 }, r.lo, r.hi)));
+      const want = [...sums].sort(([a], [b]) => Buffer.compare(Buffer.from(a), Buffer.from(b)));
+      expect(decodeTerms(merged.terms, [...merged.counts.keys()])).toEqual(want.map(([t]) => t));
+      expect([...merged.counts]).toEqual(want.map(([, e]) => e.count));
+      expect([...merged.docFreqs]).toEqual(want.map(([, e]) => e.docFreq));
+    });
+  }
 });
 
 describe('term table limits from the memory budget', () => {

@@ -97,7 +97,10 @@ export interface KindredConfig {
   output: OutputConfig;
   vectors: VectorsConfig;
   neighbors: NeighborsConfig;
-  /** Memory budget for the counting stage in MiB: the corpus is counted in chunks of at most half of it. */
+  /**
+   * Memory budget of the counting stages in MiB: the vocabulary's term tables take at most half of it, a chunk of
+   * the corpus being counted a quarter, the gathered occurrences another quarter (docs/config.md).
+   */
   memoryMiB: number;
   /** Worker threads of the counting stage; 0 means one per CPU core. Outputs do not depend on it. */
   workers: number;

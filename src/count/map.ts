@@ -177,7 +177,9 @@ export class VocabularyMapper {
     const epoch = this.runs.length;
     const { streamDir, mapper } = this.setup;
     const file = path.join(streamDir, `m${String(mapper).padStart(3, '0')}-terms-${String(epoch).padStart(6, '0')}.run`);
-    const { bytes, index } = writeTermRun(file, { terms: { arena: this.table.arena, offsets: this.table.starts }, size, counts: this.counts, docFreqs: this.docFreqs, flags });
+    // sorted in the table's own hash slots, which clear() resets next
+    const epochTerms = { terms: { arena: this.table.arena, offsets: this.table.starts }, size, counts: this.counts, docFreqs: this.docFreqs, flags };
+    const { bytes, index } = writeTermRun(file, epochTerms, null, this.table.sortScratch());
     this.runs.push({ file, mapper, epoch, continuedDoc: this.continuedDoc, openDoc, bytes, index });
     this.table.clear();
     this.counts.fill(0);
@@ -214,12 +216,14 @@ export class VocabularyMapper {
       return { terms: empty, order: new Uint32Array(0), counts: new Float64Array(0), docFreqs: new Uint32Array(0), tokens: this.tokens, runs: this.runs };
     }
     const n = this.table.size;
-    const terms = this.table.toTermBytes();
-    // sorted here, on each mapper's thread at once, so that the calling thread merges sorted lists
+    // the table's own arrays, not copies (the mapper is done with them; a thread hands their buffers over whole)
+    const terms = { arena: this.table.arena.subarray(0, this.table.arenaFill), offsets: this.table.starts.subarray(0, n + 1) };
+    // sorted here, on each mapper's thread at once, so that the calling thread merges sorted lists; in the
+    // table's hash slots, which are not needed any more
     const order = new Uint32Array(n);
     for (let i = 0; i < n; i++) order[i] = i;
-    sortByBytes(terms.arena, terms.offsets, order);
-    return { terms, order, counts: this.counts.slice(0, n), docFreqs: this.docFreqs.slice(0, n), tokens: this.tokens, runs: [] };
+    sortByBytes(terms.arena, terms.offsets, order, this.table.sortScratch());
+    return { terms, order, counts: this.counts.subarray(0, n), docFreqs: this.docFreqs.subarray(0, n), tokens: this.tokens, runs: [] };
   }
 }
 

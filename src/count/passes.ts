@@ -152,10 +152,13 @@ async function countTermsSpilled(
   prepared = null;
   // the streams some threads wrote before (or without) filling a table are not used
   for (const r of run.results) rmSync(r.stream.file, { force: true });
+  const { threads } = run;
   let tokens = 0;
   for (const p of run.partials) tokens += p.tokens;
   const written = termRuns(run.partials, streamDir);
-  progress.end(`${stats.documents} documents, ${tokens} tokens (${run.threads} thread${run.threads > 1 ? 's' : ''}); term tables written to ${written.length} runs`);
+  // the tables of threads that never filled one are in runs now: not held through the merge and the second reading
+  run.partials.length = 0;
+  progress.end(`${stats.documents} documents, ${tokens} tokens (${threads} thread${threads > 1 ? 's' : ''}); term tables written to ${written.length} runs`);
   const runs = await foldTermRuns(written, exec, progress, streamDir);
   progress.start('terms', runs.reduce((sum, r) => sum + r.bytes, 0), 'B');
   let done = 0;
@@ -174,7 +177,7 @@ async function countTermsSpilled(
   const { vocab } = keptVocabulary(merged, kept);
   progress.end(`${distinct} distinct terms, ${vocab.terms.length} kept (${runs.length} runs merged, ${parts.length} ranges)`);
   const streams = await vocabularyStreams(files, cfg, exec, termBytesOf(terms, kept), progress, totalBytes, streamDir);
-  return { vocab, counter: { tokens, size: distinct }, threads: run.threads, streams };
+  return { vocab, counter: { tokens, size: distinct }, threads, streams };
 }
 
 /**
@@ -193,26 +196,33 @@ function termRuns(partials: VocabularyPartial[], streamDir: string): TermRun[] {
 
 /**
  * More runs than a merge reads at once (MAX_FAN_IN) folded, on the threads, consecutive runs of a mapper into
- * one, until there are few enough: each round a stage line ("fold"). The folded runs' files are removed.
+ * one, as few as bring the count down to MAX_FAN_IN, round after round: each round a stage line ("fold"). When
+ * every mapper is down to one run (more than MAX_FAN_IN threads), consecutive mappers' runs are folded
+ * together: a mapper's only run has no open or continued document, so no flag links it to another. The folded
+ * runs' files are removed.
  */
-async function foldTermRuns(runs: TermRun[], exec: CountExec, progress: Progress, streamDir: string): Promise<TermRun[]> {
+export async function foldTermRuns(runs: TermRun[], exec: CountExec, progress: Progress, streamDir: string): Promise<TermRun[]> {
   for (let round = 1; runs.length > MAX_FAN_IN; round++) {
-    // each mapper's runs in groups of consecutive epochs
+    const acrossMappers = new Set(runs.map((r) => r.mapper)).size === runs.length;
+    // consecutive runs in groups of at most MAX_FAN_IN, each group one mapper's unless acrossMappers, folding
+    // groups only while the count is above MAX_FAN_IN
+    let excess = runs.length - MAX_FAN_IN;
     const groups: TermRun[][] = [];
     for (const r of runs) {
       const g = groups[groups.length - 1];
-      if (g !== undefined && g[0].mapper === r.mapper && g.length < MAX_FAN_IN) g.push(r);
-      else groups.push([r]);
+      if (g !== undefined && excess > 0 && g.length < MAX_FAN_IN && (acrossMappers || g[0].mapper === r.mapper)) {
+        g.push(r);
+        excess--;
+      } else groups.push([r]);
     }
     const folding = groups.filter((g) => g.length > 1);
-    if (folding.length === 0) break;
     const tasks = folding.map((g, i) => ({ runs: g, file: path.join(streamDir, `fold-${round}-${String(i).padStart(6, '0')}.run`) }));
     progress.start('fold', folding.flat().reduce((sum, r) => sum + r.bytes, 0), 'B');
     let done = 0;
     const folded = (await runMap('fold', () => ({}), tasks, exec.workers, (n) => progress.update((done += n)))).results;
     for (const r of folding.flat()) rmSync(r.file, { force: true });
     const next = groups.map((g) => (g.length > 1 ? folded[folding.indexOf(g)] : g[0]));
-    progress.end(`round ${round}: ${runs.length} term runs folded into ${next.length}`);
+    progress.end(`round ${round}: ${runs.length} term runs, ${folding.flat().length} of them folded into ${folding.length}`);
     runs = next;
   }
   return runs;

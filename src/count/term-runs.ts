@@ -18,7 +18,7 @@
 import { closeSync, openSync, readSync } from 'node:fs';
 import { wrapWriteError, writeBytesOrThrow } from '../store/atomic.js';
 import { giveBuffer, takeBuffer } from '../store/buffer-pool.js';
-import { compareBytes, sortByBytes, type TermBytes } from './term-table.js';
+import { compareBytes, sortByBytes, type SortScratch, type TermBytes } from './term-table.js';
 
 /** The term was in the document being read when its run was written. */
 export const OPEN = 1;
@@ -132,23 +132,26 @@ class RunWriter {
   /** Closes the file without writing more (after a failure). */
   release(): void {
     if (this.buf.length === 0) return;
-    closeSync(this.fd);
-    giveBuffer(this.buf);
+    const buf = this.buf;
     this.buf = Buffer.alloc(0);
+    giveBuffer(buf);
+    closeSync(this.fd);
   }
 }
 
 /**
- * Writes one epoch's terms to `file` in the order of their bytes (`sorted`: the ids in that order, when known);
- * returns the bytes written and the run's sparse index.
+ * Writes one epoch's terms to `file` in the order of their bytes (`sorted`: the ids in that order, when known;
+ * else sorted here, with `scratch` for the sort); returns the bytes written and the run's sparse index.
  */
-export function writeTermRun(file: string, epoch: EpochTerms, sorted: Uint32Array | null = null): { bytes: number; index: RunIndex } {
+export function writeTermRun(
+  file: string, epoch: EpochTerms, sorted: Uint32Array | null = null, scratch: SortScratch | null = null,
+): { bytes: number; index: RunIndex } {
   const { terms, size, counts, docFreqs, flags } = epoch;
   let order = sorted;
   if (order === null) {
     order = new Uint32Array(size);
     for (let i = 0; i < size; i++) order[i] = i;
-    sortByBytes(terms.arena, terms.offsets, order);
+    sortByBytes(terms.arena, terms.offsets, order, scratch);
   }
   const writer = new RunWriter(file);
   try {
@@ -486,7 +489,13 @@ function mergeSources(runs: TermRun[], sources: RunSource[], { minCount, minDocF
     offsets[++kept] = fill;
   }
   report();
-  return { terms: { arena: arena.subarray(0, fill), offsets: offsets.subarray(0, kept + 1) }, counts: counts.subarray(0, kept), docFreqs: docFreqs.subarray(0, kept), distinct };
+  // a range's terms past the first maxSize by count cannot be in the vocabulary either
+  if (maxSize > 0 && kept > maxSize) {
+    kept = keepMost(maxSize, kept, arena, offsets, counts, docFreqs);
+    fill = offsets[kept];
+  }
+  // copies of their size: a thread hands them over whole
+  return { terms: { arena: arena.slice(0, fill), offsets: offsets.slice(0, kept + 1) }, counts: counts.slice(0, kept), docFreqs: docFreqs.slice(0, kept), distinct };
 }
 
 /** Most runs a merge reads at once (open files and read buffers); more are folded first (foldRuns). */

@@ -120,6 +120,17 @@ export class TermTable {
     return id;
   }
 
+  /**
+   * The hash slots and hashes as sortByBytes's scratch arrays (two halves of the slots, which are at least twice
+   * the terms, and the hashes), for sorting the table's terms just before it is emptied (clear) or dropped: the
+   * table cannot be used again until then.
+   */
+  sortScratch(): SortScratch {
+    const half = this.slots.length >>> 1;
+    const { buffer, byteOffset } = this.slots;
+    return [new Uint32Array(buffer, byteOffset, half), new Uint32Array(buffer, byteOffset + 4 * half, half), new Uint32Array(this.hashes.buffer, this.hashes.byteOffset, this.hashes.length)];
+  }
+
   /** Empties the table, keeping its arrays (an arena grown past its limit by one long term is made anew). */
   clear(): void {
     this.slots.fill(EMPTY);
@@ -131,11 +142,6 @@ export class TermTable {
   /** The term bytes of id (a view into the arena: copy before the table grows). */
   bytesOf(id: number): Uint8Array {
     return this.arena.subarray(this.starts[id], this.starts[id + 1]);
-  }
-
-  /** Copies of the arena and offsets, for sending to another thread. */
-  toTermBytes(): TermBytes {
-    return { arena: this.arena.slice(0, this.arenaFill), offsets: this.starts.slice(0, this.size + 1) };
   }
 
   private growIds(): void {
@@ -175,44 +181,42 @@ const INSERTION_SORT_IDS = 12;
 /** From this many ids on, sortByBytes sorts by the terms' first 8 bytes with a radix sort first. */
 const RADIX_SORT_IDS = 1 << 16;
 
+/** Three arrays of at least as many entries as the ids, that sortByBytes may overwrite. */
+export type SortScratch = [Uint32Array, Uint32Array, Uint32Array];
+
 /**
  * Sorts ids (indexes into `offsets`: term id's bytes are arena[offsets[id], offsets[id + 1])) by their bytes, in
  * lexicographic order (for UTF-8, code point order), shorter before longer at a common prefix. The terms must be
  * distinct (as a table's are).
  *
- * Many ids are put in order of their first 8 bytes (zero-padded) by a least-significant-digit radix sort on two
- * 32-bit keys read once per term, in arrays read and written in sequence; only ids with equal keys are then
- * compared byte by byte. The comparison sort alone reads a term's bytes where they lie in the arena at every
- * level of the partitioning, a cache miss each in a large table: 2.2 s of a thread's 7 s sorting 1M-term tables
- * five times on a corpus of 10M distinct terms (docs/performance.md, "Memory budget").
+ * Many ids are put in order of their first 4 bytes (zero-padded) by a least-significant-digit radix sort on one
+ * 32-bit key read once per term, in arrays read and written in sequence; only ids with equal keys are then
+ * compared byte by byte. The comparison sort alone reads a term's bytes where they lie in
+ * the arena at every level of the partitioning, a cache miss each in a large table. The radix sort's arrays are
+ * `scratch` when given (a table lends its hash slots and hashes, TermTable.sortScratch, so that sorting it
+ * takes no memory beyond its own), else new.
  */
-export function sortByBytes(arena: Uint8Array, offsets: Uint32Array, ids: Uint32Array): void {
-  if (ids.length < RADIX_SORT_IDS) {
+export function sortByBytes(arena: Uint8Array, offsets: Uint32Array, ids: Uint32Array, scratch: SortScratch | null = null): void {
+  const n = ids.length;
+  if (n < RADIX_SORT_IDS) {
     sortByBytesCompared(arena, offsets, ids);
     return;
   }
-  const n = ids.length;
-  let hi = new Uint32Array(n);
-  let lo = new Uint32Array(n);
+  const fits = scratch !== null && scratch.every((a) => a.length >= n);
+  let key = fits ? scratch[0] : new Uint32Array(n);
+  let keyOut = fits ? scratch[1] : new Uint32Array(n);
+  let idsIn: Uint32Array = ids;
+  let idsOut: Uint32Array = fits ? scratch[2] : new Uint32Array(n);
   for (let i = 0; i < n; i++) {
     const s = offsets[ids[i]];
     const len = offsets[ids[i] + 1] - s;
     let a = 0;
-    let b = 0;
     for (let k = 0; k < 4; k++) a = (a << 8) | (k < len ? arena[s + k] : 0);
-    for (let k = 4; k < 8; k++) b = (b << 8) | (k < len ? arena[s + k] : 0);
-    hi[i] = a >>> 0;
-    lo[i] = b >>> 0;
+    key[i] = a >>> 0;
   }
-  let idsIn: Uint32Array = ids;
-  let hiOut = new Uint32Array(n);
-  let loOut = new Uint32Array(n);
-  let idsOut: Uint32Array = new Uint32Array(n);
   const counts = new Uint32Array(256);
-  // 8 passes of one byte, least significant first (lo's, then hi's); a pass whose byte is the same everywhere moves nothing
-  for (let pass = 0; pass < 8; pass++) {
-    const key = pass < 4 ? lo : hi;
-    const shift = (pass % 4) * 8;
+  // 4 passes of one byte, least significant first; a pass whose byte is the same everywhere moves nothing
+  for (let shift = 0; shift < 32; shift += 8) {
     counts.fill(0);
     for (let i = 0; i < n; i++) counts[(key[i] >>> shift) & 255]++;
     if (counts[(key[0] >>> shift) & 255] === n) continue;
@@ -224,27 +228,25 @@ export function sortByBytes(arena: Uint8Array, offsets: Uint32Array, ids: Uint32
     }
     for (let i = 0; i < n; i++) {
       const at = counts[(key[i] >>> shift) & 255]++;
-      hiOut[at] = hi[i];
-      loOut[at] = lo[i];
+      keyOut[at] = key[i];
       idsOut[at] = idsIn[i];
     }
-    [hi, hiOut] = [hiOut, hi];
-    [lo, loOut] = [loOut, lo];
+    [key, keyOut] = [keyOut, key];
     [idsIn, idsOut] = [idsOut, idsIn];
   }
-  if (idsIn !== ids) ids.set(idsIn);
-  // ids with the same first 8 bytes (terms of 8 bytes or more; or a term with zero bytes), in order of all their bytes
+  if (idsIn !== ids) ids.set(idsIn.subarray(0, n));
+  // ids with the same first 4 bytes (or one term's zero bytes where another ends), in order of all their bytes
   for (let i = 0; i < n;) {
     let j = i + 1;
-    while (j < n && hi[j] === hi[i] && lo[j] === lo[i]) j++;
-    if (j - i > 1) multikeySort(arena, offsets, ids, i, j);
+    while (j < n && key[j] === key[i]) j++;
+    if (j - i > 1) multikeySort(arena, offsets, ids, i, j, 0);
     i = j;
   }
 }
 
 /** sortByBytes by comparisons alone (multikeySort of all ids): the path below RADIX_SORT_IDS, for comparisons. */
 export function sortByBytesCompared(arena: Uint8Array, offsets: Uint32Array, ids: Uint32Array): void {
-  multikeySort(arena, offsets, ids, 0, ids.length);
+  multikeySort(arena, offsets, ids, 0, ids.length, 0);
 }
 
 /**
@@ -252,9 +254,9 @@ export function sortByBytesCompared(arena: Uint8Array, offsets: Uint32Array, ids
  * SODA 1997): a three-way partition on the byte at depth d, the middle part then taken at d + 1, so no byte is
  * compared twice more than the partitions need; an id whose term has ended sorts before every byte.
  */
-function multikeySort(arena: Uint8Array, offsets: Uint32Array, ids: Uint32Array, from: number, to: number): void {
+function multikeySort(arena: Uint8Array, offsets: Uint32Array, ids: Uint32Array, from: number, to: number, depth: number): void {
   // ranges still to sort: lo, hi, depth
-  const stack: number[] = [from, to, 0];
+  const stack: number[] = [from, to, depth];
   while (stack.length > 0) {
     let d = stack.pop()!;
     let hi = stack.pop()!;

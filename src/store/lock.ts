@@ -111,12 +111,38 @@ async function createLock(file: string, owner: LockOwner): Promise<boolean> {
     } catch (e) {
       if (isCode(e, 'EEXIST')) return false;
       if (isCode(e, 'ENOENT')) return makeArea(file);
+      // a file system without hard links (vfat, exFAT, some FUSE and SMB mounts): created exclusive, then written
+      if (NO_LINKS.some((code) => isCode(e, code))) return createLockInPlace(file, owner);
       throw wrapWriteError(e, file);
     }
     return true;
   } finally {
     await fsp.rm(tmp, { force: true }).catch(() => undefined);
   }
+}
+
+/** What link fails with where a file system has no hard links. */
+const NO_LINKS = ['EPERM', 'ENOTSUP', 'EOPNOTSUPP', 'ENOSYS'];
+
+/** createLock without a hard link: the lock created with O_EXCL, then written (empty in between). */
+async function createLockInPlace(file: string, owner: LockOwner): Promise<boolean> {
+  let handle: fsp.FileHandle;
+  try {
+    handle = await fsp.open(file, 'wx');
+  } catch (e) {
+    if (isCode(e, 'EEXIST')) return false;
+    throw wrapWriteError(e, file);
+  }
+  try {
+    await handle.writeFile(JSON.stringify(owner, null, 2) + '\n');
+    await handle.sync();
+  } catch (e) {
+    await handle.close().catch(() => undefined);
+    await fsp.rm(file, { force: true }).catch(() => undefined);
+    throw wrapWriteError(e, file);
+  }
+  await handle.close();
+  return true;
 }
 
 /** The work area was removed by a build that just finished: makes it again; the caller retries (false). */
@@ -138,9 +164,10 @@ async function removeStaleLock(file: string, staleText: string): Promise<void> {
     handle = await fsp.open(guard, 'wx');
   } catch (e) {
     if (!isCode(e, 'EEXIST')) throw wrapWriteError(e, guard);
-    // another taker is at work; a guard left by a taker that died is removed after the grace time
+    // another taker is at work (give it time); a guard left by a taker that died is removed after the grace time
     const st = await fsp.stat(guard).catch(() => null);
     if (st && Date.now() - st.mtimeMs > UNREADABLE_LOCK_GRACE_MS) await fsp.rm(guard, { force: true });
+    else await sleep(100);
     return;
   }
   try {
@@ -171,7 +198,16 @@ export async function acquireBuildLock(file: string, outDir: string, notify: (me
     outDir,
     toolVersion: TOOL_VERSION,
   };
-  for (let attempt = 0; attempt < ATTEMPTS; attempt++) {
+  // a lock in passing states (being taken over, or written by a build that died) is retried until the grace
+  // time of an unreadable lock or of a takeover guard has passed; each takeover is told once
+  const deadline = Date.now() + UNREADABLE_LOCK_GRACE_MS + 5000;
+  const told = new Set<string>();
+  const tell = (text: string, message: string): void => {
+    if (told.has(text)) return;
+    told.add(text);
+    notify(message);
+  };
+  for (let attempt = 0; attempt < ATTEMPTS || Date.now() < deadline; attempt++) {
     if (await createLock(file, owner)) {
       const text = JSON.stringify(owner, null, 2) + '\n';
       return {
@@ -190,7 +226,7 @@ export async function acquireBuildLock(file: string, outDir: string, notify: (me
         await sleep(100);
         continue;
       }
-      notify(`taking over the lock ${file}: it names no owner and is ${Math.round(state.ageMs / 1000)} s old (its build died while creating it)`);
+      tell(state.text, `taking over the lock ${file}: it names no owner and is ${Math.round(state.ageMs / 1000)} s old (its build died while creating it)`);
       await removeStaleLock(file, state.text);
       continue;
     }
@@ -199,7 +235,7 @@ export async function acquireBuildLock(file: string, outDir: string, notify: (me
       throw busy(outDir, file, other, ' (another host: kindred cannot check whether it still runs)');
     }
     if (processAlive(other.pid)) throw busy(outDir, file, other, '');
-    notify(`taking over the lock of ${outDir} left by pid ${other.pid} (started ${other.startedAt}), which is no longer running`);
+    tell(state.text, `taking over the lock of ${outDir} left by pid ${other.pid} (started ${other.startedAt}), which is no longer running`);
     await removeStaleLock(file, state.text);
   }
   throw new KindredError(`cannot take the lock ${file}: it keeps changing or cannot be read; try again in a few seconds`);

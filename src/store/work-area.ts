@@ -163,6 +163,10 @@ export class WorkArea {
   /** Removes everything temporary: tmp/ and half-made links next to `<out>`. Call only while holding the lock. */
   async clearTemporary(): Promise<void> {
     await fsp.rm(this.tmpDir, { recursive: true, force: true });
+    // a lock's temporary sibling left by a build killed while taking the lock (lock.ts createLock)
+    for (const name of await fsp.readdir(this.root).catch(() => [] as string[])) {
+      if (name.startsWith('.kindred-lock-')) await fsp.rm(path.join(this.root, name), { force: true });
+    }
     const prefix = `.kindred-${LINK_TAG}-${this.base}-`;
     for (const name of await fsp.readdir(this.parent).catch(() => [] as string[])) {
       if (name.startsWith(prefix)) await fsp.rm(path.join(this.parent, name), { force: true });
