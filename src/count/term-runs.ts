@@ -173,8 +173,8 @@ class RunSource {
   count = 0;
   docFreq = 0;
   flags = 0;
-  /** Bytes of the file read so far, from where the range's reading started. */
-  read = 0;
+  /** Bytes of the range's records read so far (each record is in one range: the ranges' sum is the file's size). */
+  consumed = 0;
   private buf: Buffer;
   private fill = 0;
   private pos = 0;
@@ -205,7 +205,9 @@ class RunSource {
         if (compareBytes(this.bytes, this.start, this.end, lo!, 0, lo!.length) < 0) continue;
         this.before = false;
       }
-      return hi === null || compareBytes(this.bytes, this.start, this.end, hi, 0, hi.length) < 0;
+      if (hi !== null && compareBytes(this.bytes, this.start, this.end, hi, 0, hi.length) >= 0) return false;
+      this.consumed += HEADER_BYTES + this.end - this.start;
+      return true;
     }
   }
 
@@ -244,7 +246,6 @@ class RunSource {
       if (got <= 0) return false;
       this.fill += got;
       this.filePos += got;
-      this.read += got;
     }
     return true;
   }
@@ -330,9 +331,9 @@ export function mergeTermRange(
 function reporter(sources: RunSource[], onProgress: (bytes: number) => void): () => void {
   let reported = 0;
   return () => {
-    const read = sources.reduce((sum, x) => sum + x.read, 0);
-    onProgress(read - reported);
-    reported = read;
+    const consumed = sources.reduce((sum, x) => sum + x.consumed, 0);
+    onProgress(consumed - reported);
+    reported = consumed;
   };
 }
 
