@@ -11,7 +11,7 @@ import { emptyIngestStats, type IngestStats } from '../ingest/types.js';
 import { createByteTokenizer, type ByteTokenizer, type TokenSink } from '../tokenize/bytes.js';
 import { TermTable, sortByBytes, type TermBytes } from './term-table.js';
 import { DOCUMENT_END, TokenStreamWriter, type TokenStreamRef } from './token-stream.js';
-import { CONTINUED, OPEN, foldRuns, mergeTermRange, writeTermRun, type KeptFilter, type KeptTerms, type TermRun } from './term-runs.js';
+import { CONTINUED, OPEN, writeTermRun, type TermRun } from './term-runs.js';
 
 export interface ReadSetup {
   input: InputConfig;
@@ -284,48 +284,6 @@ export class TokenMapper {
     }
     stream.close();
     return { file, mapper };
-  }
-
-  finish(): Record<string, never> {
-    return {};
-  }
-}
-
-/** The term runs' merge: every run (in mapper, then epoch order) and the vocabulary's filters. */
-export interface TermMergeSetup {
-  runs: TermRun[];
-  filter: KeptFilter;
-}
-
-/** A range of terms to merge: from lo (inclusive; null: the first) to hi (exclusive; null: past the last). */
-export interface TermRange {
-  lo: Uint8Array | null;
-  hi: Uint8Array | null;
-}
-
-/** Merges the term runs one range of terms a task (term-runs.ts). */
-export class TermMerger {
-  constructor(private readonly setup: TermMergeSetup) {}
-
-  run(range: TermRange, onProgress: (bytes: number) => void): KeptTerms {
-    return mergeTermRange(this.setup.runs, this.setup.filter, range.lo, range.hi, onProgress);
-  }
-
-  finish(): Record<string, never> {
-    return {};
-  }
-}
-
-/** Consecutive runs of one mapper to fold into one run at `file`. */
-export interface FoldTask {
-  runs: TermRun[];
-  file: string;
-}
-
-/** Folds groups of runs (term-runs.ts foldRuns), a group a task. */
-export class RunFolder {
-  run(task: FoldTask, onProgress: (bytes: number) => void): TermRun {
-    return foldRuns(task.runs, task.file, onProgress);
   }
 
   finish(): Record<string, never> {

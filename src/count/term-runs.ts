@@ -299,6 +299,24 @@ export interface KeptTerms {
   distinct: number;
 }
 
+/** A merge task's setup: every run (in mapper, then epoch order) and the vocabulary's filters. */
+export interface TermMergeSetup {
+  runs: TermRun[];
+  filter: KeptFilter;
+}
+
+/** A range of terms to merge: from lo (inclusive; null: the first) to hi (exclusive; null: past the last). */
+export interface TermRange {
+  lo: Uint8Array | null;
+  hi: Uint8Array | null;
+}
+
+/** Consecutive runs of one mapper (or of mappers with one run each) to fold into one run at `file`. */
+export interface FoldTask {
+  runs: TermRun[];
+  file: string;
+}
+
 /** Distinct terms merged between two progress reports. */
 const PROGRESS_TERMS = 1 << 16;
 

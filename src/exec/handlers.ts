@@ -1,10 +1,10 @@
 /** The kinds of map task the local executor runs, and how a thread (or the main thread) starts each. */
 import type { InputSplit } from '../ingest/split.js';
 import {
-  RunFolder, TermMerger, TokenMapper, type FoldTask, VocabularyMapper, transferablesOf as countTransferables, type SplitResult, type TermMergeSetup, type TermRange, type TokenSetup,
+  TokenMapper, VocabularyMapper, transferablesOf as countTransferables, type SplitResult, type TokenSetup,
   type VocabularyPartial, type VocabularySetup,
 } from '../count/map.js';
-import type { KeptTerms, TermRun } from '../count/term-runs.js';
+import { foldRuns, mergeTermRange, type FoldTask, type KeptTerms, type TermMergeSetup, type TermRange, type TermRun } from '../count/term-runs.js';
 import type { TokenStreamRef } from '../count/token-stream.js';
 import { RowsMapper, type RowsPartial, type RowsResult, type RowsSetup, type RowsTask } from '../count/rows-map.js';
 import { ChunkMapper, TouchMapper, type ChunkSetup, type ChunkTask, type TouchSetup } from '../count/chunk-map.js';
@@ -49,12 +49,11 @@ export async function createMapper(kind: MapKind, setup: unknown): Promise<AnyMa
     return { run: (t, p) => m.run(t as InputSplit, p), finish: () => m.finish() };
   }
   if (kind === 'fold') {
-    const m = new RunFolder();
-    return { run: async (t, p) => m.run(t as FoldTask, p), finish: () => m.finish() };
+    return { run: async (t, p) => foldRuns((t as FoldTask).runs, (t as FoldTask).file, p), finish: () => ({}) };
   }
   if (kind === 'terms') {
-    const m = new TermMerger(setup as TermMergeSetup);
-    return { run: async (t, p) => m.run(t as TermRange, p), finish: () => m.finish() };
+    const { runs, filter } = setup as TermMergeSetup;
+    return { run: async (t, p) => mergeTermRange(runs, filter, (t as TermRange).lo, (t as TermRange).hi, p), finish: () => ({}) };
   }
   if (kind === 'weight') {
     // loaded only here: the Arrow reader and the schemes are not needed by the counting threads

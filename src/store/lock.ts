@@ -83,12 +83,12 @@ async function readLock(file: string): Promise<LockState> {
 }
 
 /**
- * Creates the lock `file` naming `owner`, or returns false when it exists. The content is written whole to a
+ * Creates the lock `file` holding `text` (its owner), or returns false when it exists. The content is written whole to a
  * temporary sibling and synced, then linked into place: link fails when the lock exists, and the lock never
  * exists without its content, so a build killed while taking it leaves no empty lock that the next build would
  * have to wait out (UNREADABLE_LOCK_GRACE_MS).
  */
-async function createLock(file: string, owner: LockOwner): Promise<boolean> {
+async function createLock(file: string, text: string): Promise<boolean> {
   const tmp = temporarySibling(file, 'lock');
   try {
     let handle: fsp.FileHandle;
@@ -99,7 +99,7 @@ async function createLock(file: string, owner: LockOwner): Promise<boolean> {
       throw wrapWriteError(e, file);
     }
     try {
-      await handle.writeFile(JSON.stringify(owner, null, 2) + '\n');
+      await handle.writeFile(text);
       await handle.sync();
     } catch (e) {
       throw wrapWriteError(e, file, true);
@@ -112,7 +112,7 @@ async function createLock(file: string, owner: LockOwner): Promise<boolean> {
       if (isCode(e, 'EEXIST')) return false;
       if (isCode(e, 'ENOENT')) return makeArea(file);
       // a file system without hard links (vfat, exFAT, some FUSE and SMB mounts): created exclusive, then written
-      if (NO_LINKS.some((code) => isCode(e, code))) return createLockInPlace(file, owner);
+      if (NO_LINKS.some((code) => isCode(e, code))) return createLockInPlace(file, text);
       throw wrapWriteError(e, file);
     }
     return true;
@@ -125,7 +125,7 @@ async function createLock(file: string, owner: LockOwner): Promise<boolean> {
 const NO_LINKS = ['EPERM', 'ENOTSUP', 'EOPNOTSUPP', 'ENOSYS'];
 
 /** createLock without a hard link: the lock created with O_EXCL, then written (empty in between). */
-async function createLockInPlace(file: string, owner: LockOwner): Promise<boolean> {
+async function createLockInPlace(file: string, text: string): Promise<boolean> {
   let handle: fsp.FileHandle;
   try {
     handle = await fsp.open(file, 'wx');
@@ -134,7 +134,7 @@ async function createLockInPlace(file: string, owner: LockOwner): Promise<boolea
     throw wrapWriteError(e, file);
   }
   try {
-    await handle.writeFile(JSON.stringify(owner, null, 2) + '\n');
+    await handle.writeFile(text);
     await handle.sync();
   } catch (e) {
     await handle.close().catch(() => undefined);
@@ -207,9 +207,9 @@ export async function acquireBuildLock(file: string, outDir: string, notify: (me
     told.add(text);
     notify(message);
   };
+  const text = JSON.stringify(owner, null, 2) + '\n';
   for (let attempt = 0; attempt < ATTEMPTS || Date.now() < deadline; attempt++) {
-    if (await createLock(file, owner)) {
-      const text = JSON.stringify(owner, null, 2) + '\n';
+    if (await createLock(file, text)) {
       return {
         file,
         owner,
